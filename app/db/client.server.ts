@@ -1,0 +1,62 @@
+// Opens Tiller's database: embedded PGlite in a data directory (default), in memory for
+// tests ('memory://'), or a PostgreSQL server when a postgres:// URL is given. All three
+// run the same Drizzle schema and the same migrations from drizzle/.
+import { mkdirSync } from 'node:fs'
+import { dirname, resolve } from 'node:path'
+import { fileURLToPath } from 'node:url'
+import { PGlite } from '@electric-sql/pglite'
+import type { PgDatabase, PgQueryResultHKT } from 'drizzle-orm/pg-core'
+import { drizzle as drizzlePglite } from 'drizzle-orm/pglite'
+import { migrate as migratePglite } from 'drizzle-orm/pglite/migrator'
+import { drizzle as drizzlePg } from 'drizzle-orm/node-postgres'
+import { migrate as migratePg } from 'drizzle-orm/node-postgres/migrator'
+import pg from 'pg'
+import * as schema from './schema.ts'
+
+export type Schema = typeof schema
+export type Database = PgDatabase<PgQueryResultHKT, Schema>
+
+export interface DatabaseHandle {
+  db: Database
+  kind: 'pglite' | 'postgres'
+  /** Applies every migration in drizzle/ that has not run yet. */
+  migrate(): Promise<void>
+  close(): Promise<void>
+}
+
+export const migrationsFolder = resolve(dirname(fileURLToPath(import.meta.url)), '../../drizzle')
+
+/**
+ * @param location 'memory://', a directory path for PGlite, or a postgres:// URL.
+ */
+export async function openDatabase(location: string): Promise<DatabaseHandle> {
+  if (/^postgres(ql)?:\/\//.test(location)) {
+    const pool = new pg.Pool({ connectionString: location, max: 10 })
+    const db = drizzlePg(pool, { schema }) as unknown as Database
+    return {
+      db,
+      kind: 'postgres',
+      migrate: () => migratePg(db as never, { migrationsFolder }),
+      close: () => pool.end(),
+    }
+  }
+  let client: PGlite
+  if (location === 'memory://' || location === '') {
+    client = new PGlite()
+  } else {
+    const dir = resolve(location)
+    // PGlite creates only the last path segment itself.
+    mkdirSync(dirname(dir), { recursive: true })
+    client = new PGlite(dir)
+  }
+  await client.waitReady
+  const db = drizzlePglite(client, { schema }) as unknown as Database
+  return {
+    db,
+    kind: 'pglite',
+    migrate: () => migratePglite(db as never, { migrationsFolder }),
+    close: () => client.close(),
+  }
+}
+
+export { schema }
