@@ -1,0 +1,41 @@
+// The long-lived services that server.ts creates once and hands to every loader and action
+// through React Router's load context. Route modules never open their own database or
+// sockets: the built app bundle and server.ts must share one PGlite instance.
+import type { Database } from '~/db/client.server'
+import type { Config } from '~/server/config.server'
+
+export type Role = 'supervisor' | 'operator' | 'participant' | 'developer'
+
+/** What a signed-in request knows about its user. */
+export interface SessionUser {
+  id: string
+  labId: string
+  role: Role
+  email: string
+  name: string
+  /** Only for the participant role. */
+  participantId: string | null
+}
+
+export interface Mailer {
+  send(message: { to: string; subject: string; text: string; html?: string; labId?: string | null }): Promise<void>
+}
+
+/** Live-session services (ingest, decoding, SSE). Implemented in app/live/. */
+export interface LiveServices {
+  [key: string]: unknown
+}
+
+export interface Services {
+  config: Config
+  db: Database
+  dbKind: 'pglite' | 'postgres'
+  mail: Mailer
+  live: LiveServices
+}
+
+declare module 'react-router' {
+  interface AppLoadContext {
+    services: Services
+  }
+}
