@@ -9,7 +9,7 @@ import {
 import reference from '../fixtures/formats/mne_standard_1005.json'
 
 const DEG = 180 / Math.PI
-const mne = reference.positions as Record<string, [number, number, number]>
+const mne = reference.positions as unknown as Record<string, [number, number, number]>
 const at = (name: string) => STANDARD_POSITIONS[name]
 const names = (channels: { name: string }[], idx: number[]) => idx.map((i) => channels[i].name).sort()
 
