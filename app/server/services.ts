@@ -37,5 +37,7 @@ export interface Services {
 declare module 'react-router' {
   interface AppLoadContext {
     services: Services
+    /** Per-request nonce for the Content-Security-Policy script-src. */
+    cspNonce: string
   }
 }

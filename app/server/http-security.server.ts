@@ -1,0 +1,49 @@
+// Response headers and the cross-site write check applied by server.ts to every request.
+// CSRF: browsers send Origin (and Sec-Fetch-Site) on every POST; a state-changing request
+// whose origin is another site is refused before it reaches any action. Together with
+// SameSite=Lax session cookies this is the OWASP "verify origin with standard headers"
+// defence, applied in one place instead of per form (docs/decisions/002-csrf.md).
+import type { IncomingMessage } from 'node:http'
+import type { Config } from '~/server/config.server'
+
+const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS'])
+
+export function isCrossSiteWrite(req: IncomingMessage, config: Pick<Config, 'publicUrl'>): boolean {
+  if (SAFE_METHODS.has(req.method ?? 'GET')) return false
+  const fetchSite = req.headers['sec-fetch-site']
+  if (typeof fetchSite === 'string' && fetchSite !== 'same-origin' && fetchSite !== 'none') return true
+  const origin = req.headers.origin
+  if (!origin) return false // not a browser form: no ambient credentials to abuse
+  if (origin === 'null') return true
+  const host = req.headers.host
+  const allowed = new Set([new URL(config.publicUrl).origin])
+  if (host) {
+    allowed.add(`http://${host}`)
+    allowed.add(`https://${host}`)
+  }
+  return !allowed.has(origin)
+}
+
+export function securityHeaders({ production, nonce }: { production: boolean; nonce: string }): Record<string, string> {
+  const scriptSrc = production ? `'self' 'nonce-${nonce}'` : `'self' 'unsafe-inline'`
+  const csp = [
+    `default-src 'self'`,
+    `script-src ${scriptSrc}`,
+    `style-src 'self' 'unsafe-inline'`,
+    `img-src 'self' data: blob:`,
+    `font-src 'self'`,
+    `connect-src 'self' ws: wss:`,
+    `object-src 'none'`,
+    `base-uri 'self'`,
+    `form-action 'self'`,
+    `frame-ancestors 'none'`,
+  ].join('; ')
+  return {
+    'Content-Security-Policy': csp,
+    'X-Content-Type-Options': 'nosniff',
+    'X-Frame-Options': 'DENY',
+    'Referrer-Policy': 'same-origin',
+    'Cross-Origin-Opener-Policy': 'same-origin',
+    'Permissions-Policy': 'camera=(), microphone=(), geolocation=()',
+  }
+}
