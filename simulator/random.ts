@@ -82,4 +82,5 @@ export const StreamPurpose = {
   layout: 5,
   schedule: 6,
   faults: 7,
+  muscleNoise: 8,
 } as const
