@@ -28,7 +28,7 @@ async function startLive(db: Services['db'], config: Services['config']): Promis
 }
 
 /** Until live decoding is installed, /ingest answers every device with a clear close. */
-async function notReadyIngest(): Promise<LiveRuntime> {
+async function notReadyIngest(): Promise<LiveRuntime & Services['live']> {
   const { WebSocketServer } = await import('ws')
   const wss = new WebSocketServer({ noServer: true })
   return {
@@ -116,7 +116,7 @@ async function main() {
       return
     }
     const next = () =>
-      handleRequest(req, res).catch((error: unknown) => {
+      Promise.resolve(handleRequest(req, res)).catch((error: unknown) => {
         log('error', 'http.unhandled', { url: req.url, error: String(error) })
         if (!res.headersSent) res.statusCode = 500
         res.end()

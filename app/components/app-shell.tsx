@@ -79,11 +79,28 @@ export function AppShell({ user, children }: { user: SessionUser | null; childre
   if (!user || handle.paper) {
     return (
       <div className="flex min-h-screen flex-col bg-paper text-navy">
-        <header className="flex items-center gap-2 px-6 py-4 text-navy">
+        <header className="flex flex-wrap items-center gap-2 px-6 py-4 text-navy">
           <TillerMark />
           <a href="/" className="text-xl font-bold tracking-tight">
             Tiller
           </a>
+          {user ? (
+            <>
+              <nav aria-label="Main" className="ml-8 flex gap-4">
+                {NAV[user.role].map((item) => (
+                  <NavLink key={item.to} to={item.to} className={({ isActive }) => `text-base ${isActive ? 'font-bold underline' : 'hover:underline'}`}>
+                    {item.label}
+                  </NavLink>
+                ))}
+              </nav>
+              <Form method="post" action="/sign-out" className="ml-auto">
+                <span className="mr-3">{user.name}</span>
+                <button type="submit" className="underline">
+                  Sign out
+                </button>
+              </Form>
+            </>
+          ) : null}
         </header>
         <main className="flex-1 px-6">{children}</main>
         <CautionFooter tone="paper" />
