@@ -1,0 +1,151 @@
+// The live decoding path: causal band-pass per band -> W -> squared component values over a
+// sliding window -> log band power -> LDA. Constant work per sample, no allocation per block
+// once the buffers fit the block size, and deterministic (a replay through a fresh decoder gives
+// identical numbers). The running window sums are recomputed from the ring buffer once per
+// window length, which bounds rounding drift without changing the cost per sample.
+import type { Decoder } from './decoder'
+import { createFilterState, designDecoderFilter, packSos, sosFilterInto, type FilterState } from './filters'
+import { ldaDecide, ldaScores, type LdaDecision } from './lda'
+
+export interface OnlineOutput {
+  /** true once a whole window of samples has been seen */
+  ready: boolean
+  /** two classes: signed LDA score (log-odds, > 0 means classes[1]); more: the winning score */
+  output: number
+  probability: number
+  classIndex: number
+  className: string
+  /** log band power per component over the current window */
+  bandPower: Float64Array
+  /** this block band-passed in the decoder's main band, interleaved; a reused buffer */
+  filtered: Float32Array
+}
+
+export interface OnlineDecoder {
+  readonly decoder: Decoder
+  readonly windowSamples: number
+  push(samples: Float32Array, sampleCount: number): OnlineOutput
+  reset(): void
+}
+
+interface BandBranch {
+  packed: Float64Array
+  state: FilterState
+  /** component indices using this band */
+  components: number[]
+}
+
+export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
+  if (decoder.version !== 1) throw new Error(`decoder version ${decoder.version} is not supported`)
+  const C = decoder.channels.length
+  const K = decoder.filters.length
+  if (K === 0) throw new Error('decoder has no spatial components')
+  if (decoder.filters.some((w) => w.length !== C)) throw new Error('decoder filters do not match its channel count')
+  const n = Math.round(decoder.windowSeconds * decoder.rateHz)
+  if (n < 2) throw new Error('decoder window is shorter than two samples')
+
+  // One filter branch per distinct band; the main band comes first (it feeds `filtered`).
+  const bandKey = (b: [number, number]) => `${b[0]}-${b[1]}`
+  const bands: [number, number][] = [decoder.band]
+  for (const b of decoder.componentBands) if (!bands.some((x) => bandKey(x) === bandKey(b))) bands.push(b)
+  const branches: BandBranch[] = bands.map((band) => {
+    const sos = designDecoderFilter({ band, order: decoder.filterOrder, rateHz: decoder.rateHz, notchHz: decoder.notchHz })
+    return { packed: packSos(sos), state: createFilterState(sos, C), components: [] }
+  })
+  decoder.componentBands.forEach((b, k) => branches[bands.findIndex((x) => bandKey(x) === bandKey(b))].components.push(k))
+
+  const weights = decoder.filters.map((w) => Float64Array.from(w))
+  const ring = new Float64Array(K * n)
+  const sums = new Float64Array(K)
+  const bandPower = new Float64Array(K)
+  const scores = new Float64Array(decoder.lda.weights.length)
+  const decision: LdaDecision = { classIndex: 0, output: 0, probability: 0 }
+  let position = 0
+  let seen = 0
+  let capacity = 0
+  let scratch: Float64Array[] = []
+  let filteredStore = new Float32Array(0)
+  const views = new Map<number, Float32Array>()
+
+  const result: OnlineOutput = {
+    ready: false,
+    output: 0,
+    probability: 0,
+    classIndex: 0,
+    className: decoder.classes[0],
+    bandPower,
+    filtered: filteredStore,
+  }
+
+  function ensureCapacity(sampleCount: number): void {
+    if (sampleCount <= capacity) return
+    capacity = Math.max(sampleCount, capacity * 2, 32)
+    scratch = branches.map(() => new Float64Array(capacity * C))
+    filteredStore = new Float32Array(capacity * C)
+    views.clear()
+  }
+
+  function push(samples: Float32Array, sampleCount: number): OnlineOutput {
+    if (!Number.isInteger(sampleCount) || sampleCount < 0) throw new Error(`sample count must be a non-negative integer, got ${sampleCount}`)
+    if (samples.length < sampleCount * C) throw new Error(`block holds ${samples.length} values, need ${sampleCount}×${C}`)
+    ensureCapacity(sampleCount)
+    for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, samples, scratch[b], sampleCount, branches[b].state)
+    const main = scratch[0]
+    for (let i = 0; i < sampleCount * C; i++) filteredStore[i] = main[i]
+
+    for (let s = 0; s < sampleCount; s++) {
+      const base = s * C
+      for (let b = 0; b < branches.length; b++) {
+        const x = scratch[b]
+        const comps = branches[b].components
+        for (let ci = 0; ci < comps.length; ci++) {
+          const k = comps[ci]
+          const w = weights[k]
+          let y = 0
+          for (let c = 0; c < C; c++) y += w[c] * x[base + c]
+          const sq = y * y
+          const slot = k * n + position
+          sums[k] += sq - ring[slot]
+          ring[slot] = sq
+        }
+      }
+      position++
+      seen++
+      if (position === n) {
+        position = 0
+        for (let k = 0; k < K; k++) {
+          let total = 0
+          for (let i = k * n, end = i + n; i < end; i++) total += ring[i]
+          sums[k] = total
+        }
+      }
+    }
+
+    result.ready = seen >= n
+    for (let k = 0; k < K; k++) bandPower[k] = Math.log(Math.max(sums[k] / n, 1e-300))
+    ldaDecide(decoder.lda, ldaScores(decoder.lda, bandPower, scores), decision)
+    result.output = decision.output
+    result.probability = decision.probability
+    result.classIndex = decision.classIndex
+    result.className = decoder.classes[decision.classIndex]
+    let view = views.get(sampleCount)
+    if (!view) {
+      view = filteredStore.subarray(0, sampleCount * C)
+      views.set(sampleCount, view)
+    }
+    result.filtered = view
+    return result
+  }
+
+  function reset(): void {
+    for (const b of branches) b.state.z.fill(0)
+    ring.fill(0)
+    sums.fill(0)
+    bandPower.fill(0)
+    position = 0
+    seen = 0
+    result.ready = false
+  }
+
+  return { decoder, windowSamples: n, push, reset }
+}
