@@ -107,7 +107,9 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
     const knownRecords = options.expectedBytes !== undefined
       ? Math.floor((options.expectedBytes - h.headerBytes) / h.recordBytes)
       : h.recordCount >= 0 ? Math.min(h.recordCount, 64) : 64
-    const capacityRecords = Math.max(1, h.recordCount >= 0 ? Math.min(h.recordCount, knownRecords) : knownRecords)
+    // Arrays grow with the data that actually arrives, so a header that lies about its size
+    // cannot make the parser allocate more than the file holds.
+    const capacityRecords = Math.max(0, h.recordCount >= 0 ? Math.min(h.recordCount, knownRecords) : knownRecords)
     const usedLabels = new Map<string, number>()
     stores = data.filter((s) => s.samplesPerRecord === best).map((s, i) => {
       const gain = ((s.physicalMax - s.physicalMin) / (s.digitalMax - s.digitalMin)) * microvoltsPer(s.physicalDimension)
@@ -119,7 +121,6 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
       if (n > 1) label = `${label}-${n}`
       return { signal: { ...s, label }, gain, offset, data: new Float32Array(capacityRecords * best) }
     })
-    recordBuf = new Uint8Array(h.recordBytes)
   }
 
   function ensureCapacity(recordIndex: number): void {
@@ -156,11 +157,10 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
       if (k === 0) {
         const parsed = parseRecordTals(bytes, at, records, h.variant)
         checkContinuity(parsed.recordStartSeconds, at)
-        tals.push(...parsed.annotations)
+        for (const a of parsed.annotations) tals.push(a)
       } else {
         // Only the first annotation signal carries the time-keeping TAL (EDF+ spec 2.2.4).
-        const parsed = parseOtherTals(bytes, at, records, h.variant)
-        tals.push(...parsed)
+        for (const a of parseOtherTals(bytes, at, records, h.variant)) tals.push(a)
       }
     })
     records++
@@ -209,7 +209,6 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
         fail(`the file continues past the ${h.recordCount} data records its header declares (extra bytes from byte ${bytesSeen})`,
           'number of data records', bytesSeen)
       }
-      const rb = recordBuf as Uint8Array
       const remaining = chunk.length - pos
       if (recordFill === 0 && remaining >= h.recordBytes) {
         // Whole record inside the chunk: decode in place, no copy.
@@ -218,6 +217,9 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
         bytesSeen += h.recordBytes
         continue
       }
+      // A record split across chunks is gathered in one reusable buffer, made when first needed.
+      recordBuf ??= new Uint8Array(h.recordBytes)
+      const rb = recordBuf
       const take = Math.min(h.recordBytes - recordFill, remaining)
       rb.set(chunk.subarray(pos, pos + take), recordFill)
       recordFill += take

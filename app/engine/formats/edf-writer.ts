@@ -136,7 +136,7 @@ export function writeEdfFamily(rec: Recording, variant: EdfVariant): Uint8Array 
     ? perRecord.map((list, r) => encodeRecordTals(r * recordSeconds, list))
     : []
   const annotationSamples = withAnnotationSignal
-    ? Math.max(...encodedTals.map((b) => Math.ceil(b.length / bytesPerSample)), Math.ceil(16 / bytesPerSample))
+    ? encodedTals.reduce((m, b) => Math.max(m, Math.ceil(b.length / bytesPerSample)), Math.ceil(16 / bytesPerSample))
     : 0
   const signalCount = ns + (withAnnotationSignal ? 1 : 0)
   const headerBytes = FIXED_HEADER_BYTES * (signalCount + 1)
