@@ -1,8 +1,9 @@
 // Fixed spatial filters: raw channels, common average reference (McFarland et al. 1997),
 // bipolar derivations (common practice) and small/large surface Laplacians from electrode
-// neighbours (Hjorth 1975; McFarland et al. 1997). Neighbours come from the montage positions
-// passed in, never from a built-in table.
+// neighbours (Hjorth 1975; McFarland et al. 1997). Neighbours are found by the montage module
+// from the positions passed in, never from a built-in table.
 import { haufePatterns } from '../linalg'
+import { angularDistance, laplacianNeighbours, nearestNeighbours } from '../montage'
 import { pooledCovariance } from '../covariance'
 import type { ChannelPosition, FittedSpatial, SpatialContext, SpatialMethod, SpatialMethodName } from './types'
 import { allIndices } from './types'
@@ -16,7 +17,8 @@ function finish(method: SpatialMethodName, filters: number[][], names: string[],
   return { method, filters, patterns: haufePatterns(filters, cov, trials.channels), componentNames: names }
 }
 
-function positionsFor(ctx: SpatialContext, method: string): { name: string; p: [number, number, number] }[] {
+/** Montage positions in channel order (names matched case-insensitively). */
+function positionsFor(ctx: SpatialContext, method: string): ChannelPosition[] {
   if (!ctx.positions || ctx.positions.length === 0) {
     throw new Error(`${method} needs electrode positions from the montage; none were given`)
   }
@@ -24,19 +26,8 @@ function positionsFor(ctx: SpatialContext, method: string): { name: string; p: [
   return ctx.channels.map((name) => {
     const pos = byName.get(name.toLowerCase())
     if (!pos) throw new Error(`${method}: no montage position for channel '${name}'`)
-    // Project onto the unit sphere so montages in mm, cm or unit radius behave alike.
-    const r = Math.hypot(pos.x, pos.y, pos.z) || 1
-    return { name, p: [pos.x / r, pos.y / r, pos.z / r] as [number, number, number] }
+    return { name, x: pos.x, y: pos.y, z: pos.z }
   })
-}
-
-function distanceMatrix(pts: { p: [number, number, number] }[]): number[][] {
-  return pts.map((a) => pts.map((b) => Math.hypot(a.p[0] - b.p[0], a.p[1] - b.p[1], a.p[2] - b.p[2])))
-}
-
-function median(values: number[]): number {
-  const s = [...values].sort((a, b) => a - b)
-  return s.length % 2 ? s[(s.length - 1) / 2] : 0.5 * (s[s.length / 2 - 1] + s[s.length / 2])
 }
 
 export const noneMethod: SpatialMethod = {
@@ -55,21 +46,20 @@ export const carMethod: SpatialMethod = {
   },
 }
 
-/** Each channel minus its nearest neighbour; each unordered pair once. */
+/** Each channel minus its nearest neighbour on the scalp; each unordered pair once. */
 export const bipolarMethod: SpatialMethod = {
   name: 'bipolar',
   kind: 'fixed',
   fit: (trials, _labels, ctx) => {
     const pts = positionsFor(ctx, 'bipolar')
-    const d = distanceMatrix(pts)
     const n = pts.length
+    const nearest = nearestNeighbours(pts, 1)
     const seen = new Set<string>()
     const filters: number[][] = []
     const names: string[] = []
     for (let i = 0; i < n; i++) {
-      let j = -1
-      for (let k = 0; k < n; k++) if (k !== i && (j < 0 || d[i][k] < d[i][j])) j = k
-      if (j < 0) continue
+      const j = nearest[i][0]
+      if (j === undefined) continue
       const key = i < j ? `${i}:${j}` : `${j}:${i}`
       if (seen.has(key)) continue
       seen.add(key)
@@ -85,10 +75,9 @@ export const bipolarMethod: SpatialMethod = {
 }
 
 /**
- * Surface Laplacian: V_i - Σ g_ij V_j with g_ij ∝ 1/d_ij over the neighbour set (McFarland et
- * al. 1997). Small: the nearest ring (within 1.5× the montage's typical neighbour spacing);
- * large: the next ring (1.5–2.6× that spacing), the 10-20 neighbours of a 10-10 cap. Up to four
- * neighbours, closest first. A channel without neighbours at that distance stays raw.
+ * Surface Laplacian: V_i - Σ g_ij V_j with g_ij ∝ 1/d_ij over the neighbour ring the montage
+ * module finds (small: nearest ring; large: the next ring, McFarland et al. 1997). A channel
+ * without neighbours stays raw.
  */
 function laplacian(size: 'small' | 'large'): SpatialMethod {
   const name: SpatialMethodName = size === 'small' ? 'laplacian-small' : 'laplacian-large'
@@ -97,21 +86,15 @@ function laplacian(size: 'small' | 'large'): SpatialMethod {
     kind: 'fixed',
     fit: (trials, _labels, ctx) => {
       const pts = positionsFor(ctx, name)
-      const d = distanceMatrix(pts)
       const n = pts.length
       if (n < 3) throw new Error(`${name} needs at least three channels`)
-      const spacing = median(d.map((row, i) => Math.min(...row.filter((_, j) => j !== i))))
-      const [lo, hi] = size === 'small' ? [0, 1.5 * spacing] : [1.5 * spacing, 2.6 * spacing]
-      const filters = d.map((row, i) => {
-        const neighbours = row
-          .map((dist, j) => ({ j, dist }))
-          .filter(({ j, dist }) => j !== i && dist > lo && dist <= hi)
-          .sort((a, b) => a.dist - b.dist)
-          .slice(0, 4)
+      const rings = laplacianNeighbours(pts, size)
+      const filters = rings.map((ring, i) => {
         const out = new Array<number>(n).fill(0)
         out[i] = 1
-        const total = neighbours.reduce((s, nb) => s + 1 / nb.dist, 0)
-        for (const nb of neighbours) out[nb.j] -= 1 / nb.dist / total
+        const inv = ring.map((j) => 1 / Math.max(angularDistance(pts[i], pts[j]), 1e-9))
+        const total = inv.reduce((a, b) => a + b, 0)
+        ring.forEach((j, k) => (out[j] -= inv[k] / total))
         return out
       })
       return finish(name, filters, ctx.channels.map((c) => `${c}-lap`), trials)

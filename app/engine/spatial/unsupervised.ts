@@ -89,47 +89,58 @@ export let icaIterations = 0
 export function fastIcaSymmetric(Z: Float64Array[], k: number, n: number, seed: number, maxIter = 80, tol = 1e-4): number[][] {
   const normal = seededNormal(seed)
   let W = decorrelate(Array.from({ length: k }, () => Array.from({ length: k }, () => normal())))
+  const flat = new Float64Array(k * n)
+  Z.forEach((z, i) => flat.set(z.subarray(0, n), i * n))
   const y = new Float64Array(n)
+  const w = new Float64Array(k)
+  const row = new Float64Array(k)
   for (let iter = 0; iter < maxIter; iter++) {
     const next: number[][] = []
     for (let r = 0; r < k; r++) {
-      const w = W[r]
-      y.fill(0)
-      for (let i = 0; i < k; i++) {
-        const wi = w[i]
-        const zi = Z[i]
-        for (let t = 0; t < n; t++) y[t] += wi * zi[t]
-      }
-      let gPrimeMean = 0
-      for (let t = 0; t < n; t++) {
-        const g = 1 - 2 / (Math.exp(2 * y[t]) + 1) // tanh, faster than Math.tanh in V8
-        gPrimeMean += 1 - g * g
-        y[t] = g
-      }
-      gPrimeMean /= n
-      const row = new Array<number>(k)
-      for (let i = 0; i < k; i++) {
-        let s = 0
-        const zi = Z[i]
-        for (let t = 0; t < n; t++) s += y[t] * zi[t]
-        row[i] = s / n - gPrimeMean * w[i]
-      }
-      next.push(row)
+      w.set(W[r])
+      const gPrimeMean = icaProjectTanh(w, flat, k, n, y)
+      icaBackProject(y, flat, k, n, row)
+      next.push(Array.from(row, (v, i) => v / n - gPrimeMean * w[i]))
     }
     const Wn = decorrelate(next)
     let limit = 0
     for (let r = 0; r < k; r++) {
-      const dot = Wn[r].reduce((s, v, i) => s + v * W[r][i], 0)
+      let dot = 0
+      for (let i = 0; i < k; i++) dot += Wn[r][i] * W[r][i]
       limit = Math.max(limit, Math.abs(Math.abs(dot) - 1))
     }
     W = Wn
-    if (limit < tol) {
-      icaIterations = iter + 1
-      break
-    }
     icaIterations = iter + 1
+    if (limit < tol) break
   }
   return W
+}
+
+/** y = tanh(w' Z); returns mean(1 - y^2). Kept small so the JIT optimises the loops. */
+function icaProjectTanh(w: Float64Array, Z: Float64Array, k: number, n: number, y: Float64Array): number {
+  y.fill(0)
+  for (let i = 0; i < k; i++) {
+    const wi = w[i]
+    const base = i * n
+    for (let t = 0; t < n; t++) y[t] += wi * Z[base + t]
+  }
+  let gPrime = 0
+  for (let t = 0; t < n; t++) {
+    const g = 1 - 2 / (Math.exp(2 * y[t]) + 1) // tanh, faster than Math.tanh in V8
+    gPrime += 1 - g * g
+    y[t] = g
+  }
+  return gPrime / n
+}
+
+/** row = Z y (sums, not means) */
+function icaBackProject(y: Float64Array, Z: Float64Array, k: number, n: number, row: Float64Array): void {
+  for (let i = 0; i < k; i++) {
+    const base = i * n
+    let s = 0
+    for (let t = 0; t < n; t++) s += y[t] * Z[base + t]
+    row[i] = s
+  }
 }
 
 /** W <- (W W')^-1/2 W */
