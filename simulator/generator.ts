@@ -45,7 +45,7 @@ export const DEFAULT_RHYTHMS: RhythmSettings = {
   muUv: 8,
   betaUv: 3,
   alphaUv: 10,
-  rhythmBandwidthHz: 2.5,
+  rhythmBandwidthHz: 3,
   backgroundUv: 6,
   sensorNoiseUv: 1.5,
 }

@@ -82,12 +82,22 @@ export function validateParticipantSettings(s: ParticipantSettings): void {
 }
 
 /**
- * Accuracy an ideal decoder would reach on this participant: trials performed as cued are
- * right, wrong-class lapses are wrong, no-response lapses are a guess among N classes.
+ * Accuracy a decoder should reach on this participant, given `performedAccuracy`, its accuracy
+ * on trials performed as cued (set by the single-trial signal-to-noise ratio; 1 for an ideal
+ * decoder on clean data). Trials performed as cued are right with that probability; a
+ * wrong-class lapse is decoded as the other class (right only when the decoder errs, for two
+ * classes), a no-response lapse is a guess among N classes.
  */
-export function impliedAccuracy(skill: number, classCount: number, wrongClassShare = DEFAULT_PARTICIPANT.wrongClassShare): number {
+export function impliedAccuracy(
+  skill: number,
+  classCount: number,
+  wrongClassShare = DEFAULT_PARTICIPANT.wrongClassShare,
+  performedAccuracy = 1,
+): number {
   if (classCount < 2) throw new Error('accuracy needs at least two classes')
-  return skill + ((1 - skill) * (1 - wrongClassShare)) / classCount
+  const a = performedAccuracy
+  const wrongRight = classCount === 2 ? 1 - a : (1 - a) / (classCount - 1)
+  return skill * a + (1 - skill) * ((1 - wrongClassShare) / classCount + wrongClassShare * wrongRight)
 }
 
 /** Decides how the participant answers one cue. */
