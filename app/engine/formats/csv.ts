@@ -56,7 +56,13 @@ function splitLine(line: string, lineNo: number): string[] {
 
 const NUMBER = /^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/
 
+/** Above this a CSV no longer fits one JavaScript string; such recordings belong in EDF/BDF. */
+export const MAX_CSV_BYTES = 400 * 1024 * 1024
+
 export function readCsv(bytes: Uint8Array, options: CueRule = {}): Recording {
+  if (bytes.length > MAX_CSV_BYTES) {
+    fail(`the CSV file is ${bytes.length} bytes, above the ${MAX_CSV_BYTES}-byte limit for CSV; export long recordings as EDF or BDF`, undefined, 'size')
+  }
   const text = new TextDecoder('utf-8').decode(bytes).replace(/^\uFEFF/, '')
   const lines: string[] = []
   let from = 0
@@ -178,21 +184,27 @@ export function writeCsv(rec: Recording): Uint8Array {
   const parts: Uint8Array[] = []
   let buffer = ['time_s', ...rec.channels, ...(hasCue ? ['cue'] : [])].map(quote).join(',') + '\n'
   const ns = rec.channels.length
-  for (let i = 0; i < n; i++) {
-    let row = String(i / rec.rateHz)
-    for (let c = 0; c < ns; c++) {
-      const v = rec.data[c][i]
-      if (!Number.isFinite(v)) err(`channel ${rec.channels[c]} sample ${i} is ${v}, not a finite number`, rec.channels[c])
-      row += ',' + float32Text(v)
+  rec.data.forEach((d, c) => {
+    for (let i = 0; i < d.length; i++) {
+      if (!Number.isFinite(d[i])) err(`channel ${rec.channels[c]} sample ${i} is ${d[i]}, not a finite number`, rec.channels[c])
     }
-    if (hasCue) row += ',' + quote((cueAt.get(i) ?? []).join('|'))
-    buffer += row + '\n'
+  })
+  const cells: string[] = new Array(ns + 1 + (hasCue ? 1 : 0))
+  const rows: string[] = []
+  for (let i = 0; i < n; i++) {
+    cells[0] = String(i / rec.rateHz)
+    for (let c = 0; c < ns; c++) cells[c + 1] = float32Text(rec.data[c][i])
+    if (hasCue) cells[ns + 1] = quote((cueAt.get(i) ?? []).join('|'))
+    rows.push(cells.join(','))
     // Encode in pieces so a long recording never becomes one giant string.
-    if (buffer.length > 1 << 20) {
+    if (rows.length === 2048) {
+      buffer += rows.join('\n') + '\n'
+      rows.length = 0
       parts.push(encoder.encode(buffer))
       buffer = ''
     }
   }
+  if (rows.length > 0) buffer += rows.join('\n') + '\n'
   parts.push(encoder.encode(buffer))
   const total = parts.reduce((s, p) => s + p.length, 0)
   const out = new Uint8Array(total)
