@@ -80,6 +80,8 @@ export const helloSchema = z.object({
   units: z.literal('uV'),
   /** When reconnecting: continue this run instead of waiting for a new one. */
   resumeRunId: z.string().uuid().optional(),
+  /** Optional check: the session the bridge means to stream to. A token of another session is refused. */
+  sessionId: z.string().uuid().optional(),
 })
 export type Hello = z.infer<typeof helloSchema>
 

@@ -3,6 +3,7 @@
 // sockets: the built app bundle and server.ts must share one PGlite instance.
 import type { Database } from '~/db/client.server'
 import type { Config } from '~/server/config.server'
+import type { LiveServicesImpl } from '~/live/index.server'
 
 export type Role = 'supervisor' | 'operator' | 'participant' | 'developer'
 
@@ -21,10 +22,8 @@ export interface Mailer {
   send(message: { to: string; subject: string; text: string; html?: string; labId?: string | null }): Promise<void>
 }
 
-/** Live-session services (ingest, decoding, SSE). Implemented in app/live/. */
-export interface LiveServices {
-  [key: string]: unknown
-}
+/** Live-session services (ingest, decoding, SSE, runs, training). Implemented in app/live/index.server.ts. */
+export type LiveServices = LiveServicesImpl
 
 export interface Services {
   config: Config

@@ -1,0 +1,129 @@
+// The decoding workers, seen from the main thread: one worker per core (at most
+// `limits.workers`), each hosting many session pipelines. A session is placed on the worker
+// with the fewest sessions and stays there, so its blocks are processed in order. If a worker
+// dies, its sessions are told (they close their device links with 4503) and a new worker
+// replaces it.
+import { Worker } from 'node:worker_threads'
+import type { Decoder } from '../engine/decoder.ts'
+import type { FromWorker, PipelineSettings, ToWorker } from './pipeline-messages.ts'
+
+export interface PipelineListener {
+  onResult(message: Extract<FromWorker, { t: 'result' }>): void
+  onDisplay(message: Extract<FromWorker, { t: 'display' }>): void
+  onError(message: string): void
+  onWorkerLost(): void
+}
+
+interface Slot {
+  worker: Worker
+  sessions: Set<string>
+  ready: Promise<void>
+}
+
+const bootUrl = new URL('./worker-boot.mjs', import.meta.url)
+const entryUrl = new URL('./pipeline-worker.ts', import.meta.url).href
+
+export class PipelinePool {
+  private slots: Slot[] = []
+  private placement = new Map<string, Slot>()
+  private listeners = new Map<string, PipelineListener>()
+  private displayTimer: NodeJS.Timeout
+  private closing = false
+
+  constructor(
+    private readonly workerCount: number,
+    displayIntervalMs: number,
+  ) {
+    for (let i = 0; i < workerCount; i++) this.slots.push(this.spawn())
+    this.displayTimer = setInterval(() => {
+      for (const slot of this.slots) if (slot.sessions.size > 0) slot.worker.postMessage({ t: 'display-tick' } satisfies ToWorker)
+    }, displayIntervalMs)
+    this.displayTimer.unref()
+  }
+
+  async ready(): Promise<void> {
+    await Promise.all(this.slots.map((s) => s.ready))
+  }
+
+  private spawn(): Slot {
+    const worker = new Worker(bootUrl, { workerData: { entry: entryUrl }, name: 'tiller-decoding' })
+    let markReady!: () => void
+    const slot: Slot = { worker, sessions: new Set(), ready: new Promise((r) => (markReady = r)) }
+    worker.on('message', (message: FromWorker) => {
+      if (message.t === 'ready') return markReady()
+      const listener = this.listeners.get(message.sessionId)
+      if (!listener) return
+      if (message.t === 'result') listener.onResult(message)
+      else if (message.t === 'display') listener.onDisplay(message)
+      else listener.onError(message.message)
+    })
+    worker.on('error', () => this.replace(slot))
+    worker.on('exit', () => this.replace(slot))
+    return slot
+  }
+
+  private replace(slot: Slot): void {
+    const index = this.slots.indexOf(slot)
+    if (index < 0 || this.closing) return
+    const lost = [...slot.sessions]
+    slot.sessions.clear()
+    this.slots[index] = this.spawn()
+    for (const sessionId of lost) {
+      this.placement.delete(sessionId)
+      this.listeners.get(sessionId)?.onWorkerLost()
+    }
+  }
+
+  open(
+    sessionId: string,
+    input: { channels: string[]; rateHz: number; displayBand: [number, number]; displayRateHz: number; decoder: Decoder | null; settings: PipelineSettings },
+    listener: PipelineListener,
+  ): void {
+    this.close(sessionId)
+    const slot = this.slots.reduce((best, s) => (s.sessions.size < best.sessions.size ? s : best), this.slots[0])
+    slot.sessions.add(sessionId)
+    this.placement.set(sessionId, slot)
+    this.listeners.set(sessionId, listener)
+    slot.worker.postMessage({ t: 'open', sessionId, ...input } satisfies ToWorker)
+  }
+
+  has(sessionId: string): boolean {
+    return this.placement.has(sessionId)
+  }
+
+  block(sessionId: string, seq: number, firstSample: number, samples: Float32Array, sampleCount: number, receivedAt: number, decide: boolean): boolean {
+    const slot = this.placement.get(sessionId)
+    if (!slot) return false
+    const message: ToWorker = { t: 'block', sessionId, seq, firstSample, sampleCount, samples, receivedAt, decide }
+    slot.worker.postMessage(message, [samples.buffer as ArrayBuffer])
+    return true
+  }
+
+  setDecoder(sessionId: string, decoder: Decoder | null): void {
+    this.placement.get(sessionId)?.worker.postMessage({ t: 'decoder', sessionId, decoder } satisfies ToWorker)
+  }
+
+  setSettings(sessionId: string, settings: PipelineSettings): void {
+    this.placement.get(sessionId)?.worker.postMessage({ t: 'settings', sessionId, settings } satisfies ToWorker)
+  }
+
+  close(sessionId: string): void {
+    const slot = this.placement.get(sessionId)
+    if (!slot) return
+    slot.worker.postMessage({ t: 'close', sessionId } satisfies ToWorker)
+    slot.sessions.delete(sessionId)
+    this.placement.delete(sessionId)
+    this.listeners.delete(sessionId)
+  }
+
+  /** Sessions per worker, for the bench and health figures. */
+  layout(): number[] {
+    return this.slots.map((s) => s.sessions.size)
+  }
+
+  async shutdown(): Promise<void> {
+    this.closing = true
+    clearInterval(this.displayTimer)
+    await Promise.all(this.slots.map((s) => s.worker.terminate()))
+  }
+}
