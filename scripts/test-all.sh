@@ -25,6 +25,14 @@ echo "== types"
 npx react-router typegen >/dev/null
 npx tsc --noEmit
 
+echo "== dependency audit (production dependencies; policy in docs/security.md)"
+node scripts/audit-deps.mjs
+
+# Built once here: the vitest suites that start the real production server reuse it, and
+# the end-to-end step below builds again (cheap) so it always tests the current tree.
+echo "== production build"
+npx react-router build >/dev/null
+
 echo "== unit and integration tests (vitest, PGlite)"
 npx vitest run
 
