@@ -225,18 +225,25 @@ export function sosFilterInto(
   const C = state.channels
   const S = state.sections
   const z = state.z
-  for (let s = 0; s < sampleCount; s++) {
-    const base = s * C
-    for (let ch = 0; ch < C; ch++) {
-      let x = input[base + ch]
-      let zi = ch * S * 2
-      for (let k = 0, p = 0; k < S; k++, p += 5, zi += 2) {
-        const y = packed[p] * x + z[zi]
-        z[zi] = packed[p + 1] * x - packed[p + 3] * y + z[zi + 1]
-        z[zi + 1] = packed[p + 2] * x - packed[p + 4] * y
-        x = y
+  // Channel by channel, section by section over the block's samples: coefficients and the two
+  // delays stay in registers. The operations per sample are the same as a sample-by-sample
+  // loop, so any block split gives identical numbers.
+  for (let ch = 0; ch < C; ch++) {
+    for (let k = 0, p = 0; k < S; k++, p += 5) {
+      const b0 = packed[p], b1 = packed[p + 1], b2 = packed[p + 2], a1 = packed[p + 3], a2 = packed[p + 4]
+      const zi = (ch * S + k) * 2
+      let z0 = z[zi]
+      let z1 = z[zi + 1]
+      const src = k === 0 ? input : out
+      for (let s = 0, i = ch; s < sampleCount; s++, i += C) {
+        const x = src[i]
+        const y = b0 * x + z0
+        z0 = b1 * x - a1 * y + z1
+        z1 = b2 * x - a2 * y
+        out[i] = y
       }
-      out[base + ch] = x
+      z[zi] = z0
+      z[zi + 1] = z1
     }
   }
 }

@@ -35,6 +35,20 @@ interface BandBranch {
   components: number[]
 }
 
+/** w · x[offset .. offset + C), four accumulators for instruction-level parallelism. */
+function dot(w: Float64Array, x: Float64Array, offset: number, C: number): number {
+  let a0 = 0, a1 = 0, a2 = 0, a3 = 0
+  let c = 0
+  for (; c + 3 < C; c += 4) {
+    a0 += w[c] * x[offset + c]
+    a1 += w[c + 1] * x[offset + c + 1]
+    a2 += w[c + 2] * x[offset + c + 2]
+    a3 += w[c + 3] * x[offset + c + 3]
+  }
+  for (; c < C; c++) a0 += w[c] * x[offset + c]
+  return a0 + a1 + (a2 + a3)
+}
+
 export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   if (decoder.version !== 1) throw new Error(`decoder version ${decoder.version} is not supported`)
   const C = decoder.channels.length
@@ -64,6 +78,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   let seen = 0
   let capacity = 0
   let scratch: Float64Array[] = []
+  let squares = new Float64Array(0)
   let filteredStore = new Float32Array(0)
   const views = new Map<number, Float32Array>()
 
@@ -81,6 +96,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     if (sampleCount <= capacity) return
     capacity = Math.max(sampleCount, capacity * 2, 32)
     scratch = branches.map(() => new Float64Array(capacity * C))
+    squares = new Float64Array(capacity * K)
     filteredStore = new Float32Array(capacity * C)
     views.clear()
   }
@@ -93,24 +109,29 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     const main = scratch[0]
     for (let i = 0; i < sampleCount * C; i++) filteredStore[i] = main[i]
 
-    for (let s = 0; s < sampleCount; s++) {
-      const base = s * C
-      for (let b = 0; b < branches.length; b++) {
-        const x = scratch[b]
-        const comps = branches[b].components
-        for (let ci = 0; ci < comps.length; ci++) {
-          const k = comps[ci]
-          const w = weights[k]
-          let y = 0
-          for (let c = 0; c < C; c++) y += w[c] * x[base + c]
-          const sq = y * y
-          const slot = k * n + position
-          sums[k] += sq - ring[slot]
-          ring[slot] = sq
+    // Squared component values of every sample in the block, component by component.
+    for (let b = 0; b < branches.length; b++) {
+      const x = scratch[b]
+      const comps = branches[b].components
+      for (let ci = 0; ci < comps.length; ci++) {
+        const k = comps[ci]
+        const w = weights[k]
+        const row = k * capacity
+        for (let s = 0; s < sampleCount; s++) {
+          const y = dot(w, x, s * C, C)
+          squares[row + s] = y * y
         }
       }
+    }
+    // Sliding-window sums, sample by sample (the same order for any block split).
+    for (let s = 0; s < sampleCount; s++) {
+      for (let k = 0; k < K; k++) {
+        const sq = squares[k * capacity + s]
+        const slot = k * n + position
+        sums[k] += sq - ring[slot]
+        ring[slot] = sq
+      }
       position++
-      seen++
       if (position === n) {
         position = 0
         for (let k = 0; k < K; k++) {
@@ -120,6 +141,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
         }
       }
     }
+    seen += sampleCount
 
     result.ready = seen >= n
     for (let k = 0; k < K; k++) bandPower[k] = Math.log(Math.max(sums[k] / n, 1e-300))
