@@ -14,8 +14,9 @@ const R = 40
 const HEAD = 46
 
 function place(e: Position): { x: number; y: number } {
+  // Rounded so the server-rendered and hydrated SVG agree (Math.acos may differ in the last bit).
   const p = projectToDisk(e)
-  return { x: 50 + p.x * R, y: 50 - p.y * R }
+  return { x: Math.round((50 + p.x * R) * 100) / 100, y: Math.round((50 - p.y * R) * 100) / 100 }
 }
 
 function HeadOutline({ stroke }: { stroke: string }) {
