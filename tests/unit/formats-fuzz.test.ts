@@ -83,7 +83,7 @@ function concat(...parts: Uint8Array[]): Uint8Array {
 
 /** Mutations land in the header half the time: that is where the interesting checks are. */
 function apply(seed: Uint8Array, mutations: Mutation[], headerBias: boolean): Uint8Array {
-  let b = Uint8Array.from(seed)
+  let b: Uint8Array = Uint8Array.from(seed)
   for (const m of mutations) {
     const span = headerBias ? Math.min(b.length, 256 * 6) : b.length
     const at = span === 0 ? 0 : m.at % span
@@ -145,7 +145,7 @@ describe('fuzzing the EDF/BDF readers', () => {
     const seeds = [...SEEDS.edf, ...SEEDS.bdf]
     fc.assert(
       fc.property(fc.nat(seeds.length - 1), fc.array(fieldEdit, { minLength: 1, maxLength: 3 }), (s, edits) => {
-        let bytes = seeds[s]
+        let bytes: Uint8Array = seeds[s]
         for (const e of edits) bytes = editField(bytes, e)
         check(() => readRecording(bytes, 'f.edf'))
       }),
