@@ -229,6 +229,12 @@ describe('incremental parser', () => {
     for (let i = 0; i < b.length; i += 5000) p.push(b.subarray(i, i + 5000))
     expect(p.end().data[0].length).toBe(2000)
   })
+  it('gives whole-number rates for records of decimal length (254 samples in 1.016 s = 250 Hz)', () => {
+    const r: Recording = { channels: ['C3'], rateHz: 250, data: [Float32Array.from({ length: 254 * 7 }, (_, i) => i % 13)], cues: [], annotations: [] }
+    const b = writeRecording(r, 'edf')
+    expect(parseHeader(b).recordDurationSeconds).toBe(1.016)
+    expect(readEdf(b).rateHz).toBe(250)
+  })
   it('leaves out signals at another rate and says so', () => {
     const { skippedSignals } = readEdfWithDetails(edf)
     expect(skippedSignals).toEqual([])

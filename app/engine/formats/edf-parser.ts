@@ -253,7 +253,8 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
       fail(`the file has no signal channels to read (${skipped.length > 0 ? 'only skipped signals' : 'annotations only'})`, 'signals', FIXED_HEADER_BYTES)
     }
     const n = records * samplesPerRecord
-    const rateHz = samplesPerRecord / h.recordDurationSeconds
+    // 254 samples in '1.016' s is 250 Hz, not 250.00000000000003: drop the division's noise.
+    const rateHz = Number((samplesPerRecord / h.recordDurationSeconds).toPrecision(12))
     const data = stores.map((st) => (st.data.length === n ? st.data : st.data.slice(0, n)))
     const channels = stores.map((st) => st.signal.label)
     stores = []
