@@ -25,7 +25,8 @@ export interface SyntheticOptions {
   commonUv?: number
   /** amplitude (µV) of independent sensor noise */
   sensorUv?: number
-  classes?: [string, string]
+  /** two classes (left/right hand) or three (plus feet: a midline source) */
+  classes?: string[]
   seed?: number
 }
 
@@ -33,7 +34,7 @@ export interface SyntheticRecording {
   recording: Recording
   positions: ChannelPosition[]
   /** planted forward patterns (one value per channel) of the left and right sources */
-  sourcePatterns: { left: number[]; right: number[] }
+  sourcePatterns: { left: number[]; right: number[]; midline: number[] }
 }
 
 function bandNoise(normal: () => number, n: number, band: [number, number], rateHz: number): Float64Array {
@@ -57,7 +58,8 @@ export function simulateImagery(options: SyntheticOptions = {}): SyntheticRecord
   const sourceUv = options.sourceUv ?? 10
   const commonUv = options.commonUv ?? 15
   const sensorUv = options.sensorUv ?? 3
-  const [classA, classB] = options.classes ?? ['left', 'right']
+  const classes = options.classes ?? ['left', 'right']
+  if (classes.length < 2 || classes.length > 3) throw new Error('the simulation has two or three classes')
   const normal = seededNormal(options.seed ?? 1)
   const uniform = seededRandom((options.seed ?? 1) + 7919)
 
@@ -79,14 +81,15 @@ export function simulateImagery(options: SyntheticOptions = {}): SyntheticRecord
   }
   const left = blob(-35, 50, 0.22)
   const right = blob(35, 50, 0.22)
+  const midline = blob(0, 80, 0.22)
   const broad = positions.map(() => 0.8 + 0.4 * Math.abs(normal()) * 0.5)
 
-  const trialCount = 2 * perClass
+  const trialCount = classes.length * perClass
   const step = Math.round(trialSeconds * rateHz)
   const lead = Math.round(2 * rateHz)
   const total = lead + trialCount * step + lead
   // Balanced, shuffled cue order (Fisher-Yates with the seeded generator).
-  const labels = Array.from({ length: trialCount }, (_, i) => (i % 2 === 0 ? classA : classB))
+  const labels = Array.from({ length: trialCount }, (_, i) => classes[i % classes.length])
   for (let i = labels.length - 1; i > 0; i--) {
     const j = Math.floor(uniform() * (i + 1))
     ;[labels[i], labels[j]] = [labels[j], labels[i]]
@@ -95,15 +98,18 @@ export function simulateImagery(options: SyntheticOptions = {}): SyntheticRecord
 
   const srcLeft = bandNoise(normal, total, [9, 13], rateHz)
   const srcRight = bandNoise(normal, total, [9, 13], rateHz)
+  const srcMid = bandNoise(normal, total, [9, 13], rateHz)
   const common = bandNoise(normal, total, [8, 14], rateHz)
   // Amplitude envelopes: ERD during imagery (0.5 s to 3 s after the cue), opposite hemisphere.
   const envLeft = new Float64Array(total).fill(1)
   const envRight = new Float64Array(total).fill(1)
+  const envMid = new Float64Array(total).fill(1)
   const envCommon = new Float64Array(total).fill(1)
   for (const cue of cues) {
     const from = cue.sample + Math.round(0.5 * rateHz)
     const to = Math.min(total, cue.sample + Math.round(3 * rateHz))
-    const target = cue.label === classA ? envRight : envLeft
+    // first class: the right source desynchronises; second: the left; third: the midline
+    const target = [envRight, envLeft, envMid][classes.indexOf(cue.label)]
     for (let i = from; i < to; i++) target[i] = 1 - erd
     const gain = Math.exp(0.6 * normal())
     for (let i = cue.sample; i < Math.min(total, cue.sample + step); i++) envCommon[i] = gain
@@ -112,12 +118,13 @@ export function simulateImagery(options: SyntheticOptions = {}): SyntheticRecord
   for (let t = 0; t < total; t++) {
     const l = sourceUv * envLeft[t] * srcLeft[t]
     const r = sourceUv * envRight[t] * srcRight[t]
+    const m = classes.length > 2 ? sourceUv * envMid[t] * srcMid[t] : 0
     const g = commonUv * envCommon[t] * common[t]
-    for (let c = 0; c < C; c++) data[c][t] = left[c] * l + right[c] * r + broad[c] * g + sensorUv * normal()
+    for (let c = 0; c < C; c++) data[c][t] = left[c] * l + right[c] * r + midline[c] * m + broad[c] * g + sensorUv * normal()
   }
   return {
     recording: { channels: positions.map((p) => p.name), rateHz, data, cues, annotations: [] },
     positions,
-    sourcePatterns: { left, right },
+    sourcePatterns: { left, right, midline },
   }
 }
