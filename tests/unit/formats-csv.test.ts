@@ -87,3 +87,26 @@ describe('CSV errors name the line and column', () => {
     expect(r.rateHz).toBe(2)
   })
 })
+
+describe('CSV round trip property (fast-check)', () => {
+  it('any finite float32 values and cue placement come back exactly (300 cases)', async () => {
+    const fc = (await import('fast-check')).default
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 1, max: 4 }), fc.integer({ min: 2, max: 60 }), fc.constantFrom(128, 250, 256, 500, 512, 1000, 2048),
+        fc.array(fc.float({ noNaN: true, noDefaultInfinity: true }), { minLength: 240, maxLength: 240 }),
+        fc.array(fc.tuple(fc.nat(), fc.constantFrom('left', 'right', 'feet', 'rest')), { maxLength: 5 }),
+        (ch, n, rateHz, pool, cuePicks) => {
+          const data = Array.from({ length: ch }, (_, c) => Float32Array.from({ length: n }, (_, i) => pool[(c * 60 + i) % pool.length]))
+          const cues = [...new Map(cuePicks.map(([at, label]) => [at % n, label])).entries()].map(([sample, label]) => ({ sample, label })).sort((a, b) => a.sample - b.sample)
+          const rec: Recording = { channels: data.map((_, c) => `E${c}`), rateHz, data, cues, annotations: [] }
+          const back = readCsv(writeRecording(rec, 'csv'))
+          expect(back.rateHz).toBe(rateHz)
+          back.data.forEach((d, c) => d.forEach((v, i) => expect(Object.is(v, data[c][i]) || v === data[c][i]).toBe(true)))
+          expect(back.cues).toEqual(cues)
+        },
+      ),
+      { numRuns: 300, seed: 9 },
+    )
+  })
+})

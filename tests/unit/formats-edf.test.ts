@@ -256,3 +256,34 @@ describe('TAL codec (EDF+ section 2.2)', () => {
     expect(r.annotations.map((a) => a.text)).toEqual(['a', 'b'])
   })
 })
+
+describe('EDF/BDF round trip property (fast-check)', () => {
+  it('random recordings: every sample within half a quantisation step, cues exact (200 cases)', async () => {
+    const fc = (await import('fast-check')).default
+    fc.assert(
+      fc.property(
+        fc.constantFrom('edf' as const, 'bdf' as const), fc.integer({ min: 1, max: 5 }), fc.integer({ min: 1, max: 700 }),
+        fc.constantFrom(100, 128, 160, 250, 256, 500, 512, 1000), fc.double({ min: 0.01, max: 5000, noNaN: true }), fc.integer({ min: 1, max: 1 << 30 }),
+        (format, ch, n, rateHz, amplitudeUv, seed) => {
+          let s = seed
+          const rand = () => ((s = (s * 48271) % 2147483647) / 2147483647) - 0.5
+          const data = Array.from({ length: ch }, () => Float32Array.from({ length: n }, () => amplitudeUv * rand()))
+          const cues = [{ sample: Math.floor(n / 2), label: 'left' }]
+          const rec: Recording = { channels: data.map((_, c) => `E${c}`), rateHz, data, cues, annotations: [] }
+          const bytes = writeRecording(rec, format)
+          const header = parseHeader(bytes)
+          const back = readRecording(bytes, `p.${format}`)
+          expect(back.rateHz).toBe(rateHz)
+          expect(back.cues).toEqual(cues)
+          back.data.forEach((d, c) => {
+            const sig = header.signals[c]
+            const halfStep = (sig.physicalMax - sig.physicalMin) / (sig.digitalMax - sig.digitalMin) / 2
+            for (let i = 0; i < n; i++) expect(Math.abs(d[i] - data[c][i])).toBeLessThanOrEqual(halfStep * 1.0001 + 4e-7 * Math.abs(data[c][i]))
+            for (let i = n; i < d.length; i++) expect(Math.abs(d[i] - data[c][n - 1])).toBeLessThanOrEqual(halfStep * 1.0001 + 4e-7 * amplitudeUv)
+          })
+        },
+      ),
+      { numRuns: 200, seed: 8 },
+    )
+  })
+})
