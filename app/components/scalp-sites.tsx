@@ -44,7 +44,7 @@ function Head() {
 export function ScalpSites({ channels, reference, ground, title, showLabels = true, className = 'w-full max-w-md' }: Props) {
   const dense = channels.length > 40
   const dot = dense ? 0.04 : 0.05
-  const font = dense ? 0.062 : 0.075
+  const font = dense ? 0.062 : 0.085
   const refPos = reference ? positionFor(reference) : undefined
   const gndPos = ground ? positionFor(ground) : undefined
   const names = channels.map((c) => c.name).join(', ')
@@ -60,7 +60,7 @@ export function ScalpSites({ channels, reference, ground, title, showLabels = tr
             <title>{c.name}</title>
             <circle cx={cx} cy={cy} r={dot} className="fill-brass stroke-ink-950" strokeWidth={0.01} />
             {showLabels ? (
-              <text x={cx} y={cy + dot + font * 0.95} textAnchor="middle" fontSize={font} className="fill-fog">
+              <text x={cx} y={cy + dot * 1.5 + font * 0.85} textAnchor="middle" fontSize={font} className="fill-fog">
                 {c.name}
               </text>
             ) : null}
@@ -70,14 +70,14 @@ export function ScalpSites({ channels, reference, ground, title, showLabels = tr
       {refPos ? (
         <g>
           <title>Reference: {reference}</title>
-          <rect x={toSvg(refPos).cx - dot * 1.7} y={toSvg(refPos).cy - dot * 1.7} width={dot * 3.4} height={dot * 3.4} className="fill-none stroke-sky" strokeWidth={0.016} />
+          <rect x={toSvg(refPos).cx - dot * 1.45} y={toSvg(refPos).cy - dot * 1.45} width={dot * 2.9} height={dot * 2.9} className="fill-none stroke-sky" strokeWidth={0.016} />
         </g>
       ) : null}
       {gndPos ? (
         <g>
           <title>Ground: {ground}</title>
           <path
-            d={`M ${toSvg(gndPos).cx} ${toSvg(gndPos).cy - dot * 2.1} l ${dot * 2.1} ${dot * 2.1} l ${-dot * 2.1} ${dot * 2.1} l ${-dot * 2.1} ${-dot * 2.1} z`}
+            d={`M ${toSvg(gndPos).cx} ${toSvg(gndPos).cy - dot * 1.8} l ${dot * 1.8} ${dot * 1.8} l ${-dot * 1.8} ${dot * 1.8} l ${-dot * 1.8} ${-dot * 1.8} z`}
             className="fill-none stroke-sea"
             strokeWidth={0.016}
           />

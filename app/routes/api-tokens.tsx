@@ -4,9 +4,10 @@ import type { Route } from './+types/api-tokens'
 import { FormError, Notice, SelectField, TextField } from '~/components/form-fields'
 import { PageHeader } from '~/components/page'
 import { RouteError } from '~/components/route-error'
+import { API_TOKEN_EXPIRY } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
 import { requireUser } from '~/server/auth.server'
-import { apiTokenActionSchema, applyApiTokenAction, EXPIRY_CHOICES, listApiTokens } from '~/server/api-tokens.server'
+import { apiTokenActionSchema, applyApiTokenAction, listApiTokens } from '~/server/api-tokens.server'
 
 export const meta: Route.MetaFunction = () => [{ title: 'API tokens · Tiller' }]
 
@@ -69,7 +70,7 @@ export default function ApiTokens({ loaderData, actionData }: Route.ComponentPro
           <FormError errors={errors?.intent ? { _form: errors.intent } : errors?.tokenId ? { _form: errors.tokenId } : undefined} />
         </div>
         <TextField name="name" label="Token name" errors={errors} className="w-72" placeholder="e.g. analysis notebook" />
-        <SelectField name="expires" label="Expires after" options={EXPIRY_CHOICES} defaultValue="90" errors={errors} className="w-40" />
+        <SelectField name="expires" label="Expires after" options={API_TOKEN_EXPIRY} defaultValue="90" errors={errors} className="w-40" />
         <button type="submit" className="btn-primary mt-6" disabled={busy}>
           Create token
         </button>

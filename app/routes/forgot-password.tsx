@@ -10,10 +10,10 @@ export const handle = { paper: true }
 
 export async function action({ request, context }: Route.ActionArgs) {
   const form = parseForm(resetRequestSchema, await request.formData())
-  if (!form.ok) return { errors: form.errors, sent: false, throttled: false }
+  if (!form.ok) return { errors: form.errors, sent: false, throttled: null }
   const { db, mail, config } = context.services
   const { throttled } = await requestReset({ db, mail, publicUrl: config.publicUrl }, request, form.data.email)
-  return { errors: undefined, sent: !throttled, throttled }
+  return { errors: undefined, sent: !throttled, throttled: throttled ? RESET_THROTTLED : null }
 }
 
 export default function ForgotPassword({ actionData }: Route.ComponentProps) {
@@ -28,7 +28,7 @@ export default function ForgotPassword({ actionData }: Route.ComponentProps) {
         </div>
       ) : (
         <Form method="post" className="mt-8 space-y-4" noValidate>
-          {actionData?.throttled ? <PaperAlert>{RESET_THROTTLED}</PaperAlert> : null}
+          {actionData?.throttled ? <PaperAlert>{actionData.throttled}</PaperAlert> : null}
           <PaperField name="email" label="E-mail" type="email" autoComplete="username" errors={actionData?.errors} required />
           <PaperButton busy={busy}>{busy ? 'Sending…' : 'Send reset link'}</PaperButton>
         </Form>

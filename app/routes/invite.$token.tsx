@@ -1,8 +1,9 @@
 import type { Route } from './+types/invite.$token'
 import { RouteError } from '~/components/route-error'
 import { SetPasswordPage } from '~/components/set-password'
+import { MIN_PASSWORD } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
-import { LinkError, linkState, MIN_PASSWORD, newPasswordSchema, setPasswordWithLink } from '~/server/password-links.server'
+import { LinkError, linkState, newPasswordSchema, setPasswordWithLink } from '~/server/password-links.server'
 
 // Reached from an e-mailed one-time link, signed out: the token is the credential.
 export const meta: Route.MetaFunction = () => [{ title: 'Set your password · Tiller' }]

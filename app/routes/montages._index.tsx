@@ -46,9 +46,9 @@ export default function Montages({ loaderData }: Route.ComponentProps) {
                     <dt className="text-haze">Channels</dt>
                     <dd>{m.channels.length}</dd>
                     <dt className="text-haze">Reference</dt>
-                    <dd className="truncate">{m.reference || '—'}</dd>
+                    <dd className="break-words">{m.reference || '—'}</dd>
                     <dt className="text-haze">Ground</dt>
-                    <dd className="truncate">{m.ground || '—'}</dd>
+                    <dd className="break-words">{m.ground || '—'}</dd>
                     <dt className="text-haze">Sessions</dt>
                     <dd>{m.sessions}</dd>
                   </dl>

@@ -4,9 +4,10 @@ import type { Route } from './+types/people.invite'
 import { FormError, SelectField, TextField } from '~/components/form-fields'
 import { PageHeader } from '~/components/page'
 import { RouteError } from '~/components/route-error'
+import { INVITE_ROLES } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
 import { requireUser } from '~/server/auth.server'
-import { invite, INVITE_ROLES, InviteError, inviteSchema, unlinkedParticipants } from '~/server/lab-people.server'
+import { invite, InviteError, inviteSchema, unlinkedParticipants } from '~/server/lab-people.server'
 
 export const meta: Route.MetaFunction = () => [{ title: 'Invite someone · Tiller' }]
 

@@ -3,9 +3,10 @@ import type { Route } from './+types/protocols.$protocolId'
 import { PageHeader } from '~/components/page'
 import { ProtocolForm, protocolValues } from '~/components/protocol-form'
 import { RouteError } from '~/components/route-error'
+import { PROTOCOL_CLASSES } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
 import { requireUser } from '~/server/auth.server'
-import { getProtocol, PROTOCOL_CLASSES, ProtocolInUseError, protocolSchema, saveProtocol } from '~/server/protocols.server'
+import { getProtocol, ProtocolInUseError, protocolSchema, saveProtocol } from '~/server/protocols.server'
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.protocol.name ?? 'Protocol'} · Tiller` }]
 

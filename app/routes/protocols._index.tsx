@@ -4,7 +4,8 @@ import { Notice } from '~/components/form-fields'
 import { PageHeader } from '~/components/page'
 import { RouteError } from '~/components/route-error'
 import { requireUser } from '~/server/auth.server'
-import { listProtocols, PROTOCOL_CLASSES, trialSeconds } from '~/server/protocols.server'
+import { PROTOCOL_CLASSES, trialSeconds } from '~/lib/choices'
+import { listProtocols } from '~/server/protocols.server'
 
 export const meta: Route.MetaFunction = () => [{ title: 'Protocols · Tiller' }]
 

@@ -3,9 +3,10 @@ import type { Route } from './+types/protocols.new'
 import { PageHeader } from '~/components/page'
 import { DEFAULT_PROTOCOL, ProtocolForm, protocolValues } from '~/components/protocol-form'
 import { RouteError } from '~/components/route-error'
+import { PROTOCOL_CLASSES } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
 import { requireUser } from '~/server/auth.server'
-import { createProtocol, PROTOCOL_CLASSES, protocolSchema } from '~/server/protocols.server'
+import { createProtocol, protocolSchema } from '~/server/protocols.server'
 
 export const meta: Route.MetaFunction = () => [{ title: 'New protocol · Tiller' }]
 

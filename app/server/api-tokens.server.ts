@@ -14,13 +14,6 @@ export const TOKEN_PREFIX = 'tlr'
 /** Characters of the token kept in clear to recognise it: 'tlr_' plus six. */
 const SHOWN_PREFIX_LENGTH = TOKEN_PREFIX.length + 1 + 6
 
-export const EXPIRY_CHOICES = [
-  { value: '30', label: '30 days' },
-  { value: '90', label: '90 days' },
-  { value: '365', label: '1 year' },
-  { value: 'never', label: 'No expiry' },
-] as const
-
 export const tokenNameSchema = z.string().trim().min(1, 'Name the token after what will use it, e.g. “analysis notebook”').max(60, 'Keep the name to 60 characters')
 
 export const apiTokenActionSchema = z.discriminatedUnion('intent', [

@@ -8,14 +8,7 @@ import { apiTokens, authTokens, participants, users } from '~/db/schema'
 import { audit } from '~/server/audit.server'
 import { invitePerson, PeopleError } from '~/server/people.server'
 import { isUuid, notFound } from '~/server/records.server'
-import type { Mailer, Role, SessionUser } from '~/server/services'
-
-export const INVITE_ROLES: { value: Role; label: string }[] = [
-  { value: 'operator', label: 'Operator — prepares and runs sessions' },
-  { value: 'supervisor', label: 'Supervisor — people, protocols, review and sign-off' },
-  { value: 'developer', label: 'Developer — bench, API tokens, ingest' },
-  { value: 'participant', label: 'Participant — own feedback view and progress only' },
-]
+import type { Mailer, SessionUser } from '~/server/services'
 
 export const inviteSchema = z
   .object({

@@ -2,6 +2,7 @@
 // for a reset link (throttled, and silent about whether the address exists), and setting a
 // new password from a reset link. The links themselves are issued by people.server.ts.
 import { z } from 'zod'
+import { MIN_PASSWORD } from '~/lib/choices'
 import type { Database } from '~/db/client.server'
 import { clientIp } from '~/server/audit.server'
 import { isThrottled, recordFailure, THROTTLE } from '~/server/auth.server'
@@ -10,7 +11,7 @@ import type { Mailer } from '~/server/services'
 
 export type LinkKind = 'invite' | 'reset'
 
-export const MIN_PASSWORD = 10
+export { MIN_PASSWORD }
 
 export const newPasswordSchema = z
   .object({

@@ -7,16 +7,10 @@ import { z } from 'zod'
 import type { Database } from '~/db/client.server'
 import { protocols, sessions } from '~/db/schema'
 import { audit } from '~/server/audit.server'
+import { PROTOCOL_CLASSES } from '~/lib/choices'
 import { isUuid, notFound } from '~/server/records.server'
 import type { SessionUser } from '~/server/services'
 
-/** Classes the cue display and the simulator know. */
-export const PROTOCOL_CLASSES = [
-  { value: 'left', label: 'Left hand' },
-  { value: 'right', label: 'Right hand' },
-  { value: 'feet', label: 'Both feet' },
-  { value: 'rest', label: 'Rest (no imagery)' },
-] as const
 const CLASS_VALUES = PROTOCOL_CLASSES.map((c) => c.value) as ['left', 'right', 'feet', 'rest']
 
 const emptyToUndefined = (v: unknown) => (typeof v === 'string' && v.trim() === '' ? undefined : v)
@@ -84,12 +78,6 @@ export const protocolSchema = z
   })
 
 export type ProtocolInput = z.infer<typeof protocolSchema>
-
-/** One trial's length in seconds without and with the maximum rest jitter. */
-export function trialSeconds(p: Pick<ProtocolInput, 'fixationSeconds' | 'cueSeconds' | 'imagerySeconds' | 'restSeconds' | 'restJitterSeconds'>) {
-  const base = p.fixationSeconds + p.cueSeconds + p.imagerySeconds + p.restSeconds
-  return { min: base, max: base + p.restJitterSeconds }
-}
 
 const usedBy = sql<number>`(select count(*)::int from ${sessions} where ${sessions.protocolId} = ${protocols.id})`
 
