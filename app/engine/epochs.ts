@@ -1,7 +1,7 @@
 // Cutting a recording into trials by its cues, after the same causal filter the online path
 // runs, so a trial's samples are exactly what the live decoder sees at that moment.
 import { addTrial, type TrialSet, type TrialSetOptions } from './covariance'
-import { designDecoderFilter, packSos } from './filters'
+import { designDecoderFilter, packSos, sosFilterChannel } from './filters'
 import type { Recording } from './recording'
 import { sampleCount } from './recording'
 
@@ -74,23 +74,8 @@ export function buildTrialSet(recording: Recording, plan: EpochPlan, filter: Fil
   const packed = packSos(designDecoderFilter({ band: filter.band, order: filter.order, rateHz: recording.rateHz, notchHz: filter.notchHz }))
   const epochs = plan.trials.map(() => new Float64Array(C * n))
   const scratch = new Float64Array(sampleCount(recording))
-  const S = packed.length / 5
   for (let c = 0; c < C; c++) {
-    // Same per-sample arithmetic as sosFilterChannel / sosFilterInto, without a copy per channel.
-    const input = recording.data[c]
-    for (let i = 0; i < input.length; i++) scratch[i] = input[i]
-    for (let k = 0, p = 0; k < S; k++, p += 5) {
-      const b0 = packed[p], b1 = packed[p + 1], b2 = packed[p + 2], a1 = packed[p + 3], a2 = packed[p + 4]
-      let z0 = 0
-      let z1 = 0
-      for (let i = 0; i < scratch.length; i++) {
-        const x = scratch[i]
-        const y = b0 * x + z0
-        z0 = b1 * x - a1 * y + z1
-        z1 = b2 * x - a2 * y
-        scratch[i] = y
-      }
-    }
+    sosFilterChannel(packed, recording.data[c], scratch)
     plan.trials.forEach((t, i) => epochs[i].set(scratch.subarray(t.start, t.start + n), c * n))
   }
   const set: TrialSet = { channels: C, outer: [], samples: [] }

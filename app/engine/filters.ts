@@ -235,12 +235,26 @@ export function sosFilterInto(
       let z0 = z[zi]
       let z1 = z[zi + 1]
       const src = k === 0 ? input : out
-      for (let s = 0, i = ch; s < sampleCount; s++, i += C) {
-        const x = src[i]
-        const y = b0 * x + z0
-        z0 = b1 * x - a1 * y + z1
-        z1 = b2 * x - a2 * y
-        out[i] = y
+      if (b0 === 1 && b2 === 1 && (b1 === 2 || b1 === -2)) {
+        // Butterworth band-pass sections after the first have zeros at z = +1 or -1, i.e.
+        // b = [1, ±2, 1]. Multiplying by 1 or 2 is exact in floating point, so skipping those
+        // multiplications gives bit-identical results with fewer operations.
+        const twice = b1 > 0
+        for (let s = 0, i = ch; s < sampleCount; s++, i += C) {
+          const x = src[i]
+          const y = x + z0
+          z0 = (twice ? x + x : -(x + x)) - a1 * y + z1
+          z1 = x - a2 * y
+          out[i] = y
+        }
+      } else {
+        for (let s = 0, i = ch; s < sampleCount; s++, i += C) {
+          const x = src[i]
+          const y = b0 * x + z0
+          z0 = b1 * x - a1 * y + z1
+          z1 = b2 * x - a2 * y
+          out[i] = y
+        }
       }
       z[zi] = z0
       z[zi + 1] = z1
@@ -264,26 +278,11 @@ export function sosFilter(sos: Sos, block: ArrayLike<number>, state: FilterState
 
 /**
  * Filters one channel-major signal from rest (zero initial state), as a recording channel is
- * filtered for training. Same per-sample arithmetic as sosFilterInto, so the samples agree.
+ * filtered for training: the same loop as the online path, so the samples agree bit for bit.
  */
 export function sosFilterChannel(packed: Float64Array, input: ArrayLike<number>, out: Float64Array = new Float64Array(input.length)): Float64Array {
-  const S = packed.length / 5
-  const n = input.length
-  // Section by section over the whole channel: the same operations per sample as the
-  // interleaved loop, in a cache-friendlier order.
-  for (let i = 0; i < n; i++) out[i] = input[i]
-  for (let k = 0, p = 0; k < S; k++, p += 5) {
-    const b0 = packed[p], b1 = packed[p + 1], b2 = packed[p + 2], a1 = packed[p + 3], a2 = packed[p + 4]
-    let z0 = 0
-    let z1 = 0
-    for (let i = 0; i < n; i++) {
-      const x = out[i]
-      const y = b0 * x + z0
-      z0 = b1 * x - a1 * y + z1
-      z1 = b2 * x - a2 * y
-      out[i] = y
-    }
-  }
+  const state: FilterState = { channels: 1, sections: packed.length / 5, z: new Float64Array((packed.length / 5) * 2) }
+  sosFilterInto(packed, input, out, input.length, state)
   return out
 }
 
