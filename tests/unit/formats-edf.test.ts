@@ -287,3 +287,15 @@ describe('EDF/BDF round trip property (fast-check)', () => {
     )
   })
 })
+
+describe('scaling extremes stay finite', () => {
+  it('refuses physical limits that would overflow float32, reads the largest allowed as finite', () => {
+    const rec1: Recording = { channels: ['C3'], rateHz: 10, data: [Float32Array.of(1, 2, 3, 4, 5, 6, 7, 8, 9, 10)], cues: [], annotations: [] }
+    const b = writeRecording(rec1, 'bdf')
+    const pminAt = 256 + 16 + 80 + 8 // one signal (no annotations): after label, transducer, dimension
+    expect(errorOf(() => readBdf(overwrite(b, pminAt, 8, '-1e21'))).message).toMatch(/physical minimum of signal 1 \(header byte 360\) is -1e21, expected at least -100000000000000000000$/)
+    const big = overwrite(overwrite(overwrite(b, pminAt, 8, '-1e20'), pminAt + 8, 8, '1e20'), 256 + 16 + 80, 8, 'V')
+    const r = readBdf(big)
+    expect(Array.from(r.data[0]).every(Number.isFinite)).toBe(true)
+  })
+})

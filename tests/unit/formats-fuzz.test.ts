@@ -33,7 +33,10 @@ function wellFormed(r: Recording): void {
   expect(r.channels.length).toBeGreaterThan(0)
   expect(Number.isFinite(r.rateHz) && r.rateHz > 0).toBe(true)
   const n = r.data[0].length
-  for (const d of r.data) expect(d.length).toBe(n)
+  for (const d of r.data) {
+    expect(d.length).toBe(n)
+    for (let i = 0; i < d.length; i++) if (!Number.isFinite(d[i])) expect.unreachable(`sample ${i} is ${d[i]}`)
+  }
   for (const c of r.cues) expect(Number.isInteger(c.sample) && c.sample >= 0 && c.sample < n).toBe(true)
   for (const a of r.annotations) expect(Number.isFinite(a.onsetSeconds)).toBe(true)
 }

@@ -130,8 +130,9 @@ export function parseHeader(bytes: Uint8Array): EdfHeader {
       fieldNumber(bytes, fieldOffset[f] + s * SIGNAL_FIELDS[f][1], SIGNAL_FIELDS[f][1], `${SIGNAL_FIELDS[f][0]} of signal ${s + 1}`, format, rule)
     const label = text(0).trim()
     const isAnnotations = label === 'EDF Annotations' || label === 'BDF Annotations'
-    const physicalMin = num(3)
-    const physicalMax = num(4)
+    // Limits beyond 1e20 (in any unit) could scale samples past float32; no recording has them.
+    const physicalMin = num(3, { min: -1e20, max: 1e20 })
+    const physicalMax = num(4, { min: -1e20, max: 1e20 })
     const digitalMin = num(5, { integer: true, min: dLow, max: dHigh })
     const digitalMax = num(6, { integer: true, min: dLow, max: dHigh })
     const samplesPerRecord = num(8, { integer: true, min: 1 })
