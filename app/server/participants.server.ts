@@ -13,6 +13,12 @@ export const CONSENT_STATUSES = ['pending', 'given', 'withdrawn'] as const
 
 const emptyToUndefined = (v: unknown) => (typeof v === 'string' && v.trim() === '' ? undefined : v)
 
+/** True for a real day: 2026-02-30 parses in JavaScript (as 2 March) but is not one. */
+function isCalendarDate(iso: string): boolean {
+  const d = new Date(`${iso}T00:00:00Z`)
+  return !Number.isNaN(d.getTime()) && d.toISOString().slice(0, 10) === iso
+}
+
 /** ISO date of today in UTC, for "not in the future" checks. */
 function todayIso(): string {
   return new Date().toISOString().slice(0, 10)
@@ -42,7 +48,7 @@ export const participantSchema = z
       z
         .string()
         .regex(/^\d{4}-\d{2}-\d{2}$/, 'Give the date as YYYY-MM-DD')
-        .refine((d) => !Number.isNaN(Date.parse(`${d}T00:00:00Z`)), 'That is not a calendar date')
+        .refine(isCalendarDate, 'That is not a calendar date')
         .refine((d) => d <= todayIso(), 'The consent date cannot be in the future')
         .optional(),
     ),
