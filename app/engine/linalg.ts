@@ -48,9 +48,7 @@ export function eigh(a: Square, n: number): Eigen {
  * (B = L L', M = L^-1 A L^-T).
  */
 export function eighGeneralized(a: Square, b: Square, n: number): Eigen {
-  const chol = new CholeskyDecomposition(toMatrix(symmetrize(b, n), n))
-  if (!chol.isPositiveDefinite()) throw new Error('covariance is not positive definite (flat or duplicated channels?); try regularized CSP')
-  const L = chol.lowerTriangularMatrix
+  const L = choleskyWithRidge(b, n)
   // Linv by forward substitution
   const Linv = new Float64Array(n * n)
   for (let col = 0; col < n; col++) {
@@ -73,6 +71,25 @@ export function eighGeneralized(a: Square, b: Square, n: number): Eigen {
     return v
   })
   return { values: inner.values, vectors }
+}
+
+/**
+ * Cholesky factor of a covariance. A rank-deficient covariance (average-referenced data, a
+ * flat or duplicated channel) gets the smallest ridge, from 1e-10 of its mean variance upward,
+ * that makes it positive definite; a full-rank covariance is used as it is.
+ */
+function choleskyWithRidge(b: Square, n: number): Matrix {
+  const sym = symmetrize(b, n)
+  let meanVar = 0
+  for (let i = 0; i < n; i++) meanVar += sym[i * n + i] / n
+  if (!(meanVar > 0) || !Number.isFinite(meanVar)) throw new Error('covariance has no variance (all channels flat?)')
+  for (let ridge = 0, step = 1e-10; step <= 1e-2; ridge = meanVar * step, step *= 100) {
+    const m = toMatrix(sym, n)
+    for (let i = 0; i < n; i++) m.set(i, i, m.get(i, i) + ridge)
+    const chol = new CholeskyDecomposition(m)
+    if (chol.isPositiveDefinite()) return chol.lowerTriangularMatrix
+  }
+  throw new Error('covariance is far from positive definite (flat or duplicated channels?); try regularized CSP')
 }
 
 export function matmul(a: Square, b: Square, n: number): Square {

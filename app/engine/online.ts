@@ -19,6 +19,8 @@ export interface OnlineOutput {
   bandPower: Float64Array
   /** this block band-passed in the decoder's main band, interleaved; a reused buffer */
   filtered: Float32Array
+  /** non-finite input values in this block (NaN, ±Infinity), replaced by 0 so the filters survive */
+  invalidValues: number
 }
 
 export interface OnlineDecoder {
@@ -80,6 +82,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   let scratch: Float64Array[] = []
   let squares = new Float64Array(0)
   let filteredStore = new Float32Array(0)
+  let cleaned = new Float32Array(0)
   const views = new Map<number, Float32Array>()
 
   const result: OnlineOutput = {
@@ -90,6 +93,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     className: decoder.classes[0],
     bandPower,
     filtered: filteredStore,
+    invalidValues: 0,
   }
 
   function ensureCapacity(sampleCount: number): void {
@@ -98,6 +102,7 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     scratch = branches.map(() => new Float64Array(capacity * C))
     squares = new Float64Array(capacity * K)
     filteredStore = new Float32Array(capacity * C)
+    cleaned = new Float32Array(capacity * C)
     views.clear()
   }
 
@@ -105,7 +110,17 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     if (!Number.isInteger(sampleCount) || sampleCount < 0) throw new Error(`sample count must be a non-negative integer, got ${sampleCount}`)
     if (samples.length < sampleCount * C) throw new Error(`block holds ${samples.length} values, need ${sampleCount}×${C}`)
     ensureCapacity(sampleCount)
-    for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, samples, scratch[b], sampleCount, branches[b].state)
+    // One NaN would stay in an IIR filter's state for good; a dropped value becomes 0 instead.
+    let invalid = 0
+    const values = sampleCount * C
+    for (let i = 0; i < values; i++) if (!Number.isFinite(samples[i])) invalid++
+    let input: Float32Array = samples
+    if (invalid > 0) {
+      for (let i = 0; i < values; i++) cleaned[i] = Number.isFinite(samples[i]) ? samples[i] : 0
+      input = cleaned
+    }
+    result.invalidValues = invalid
+    for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, input, scratch[b], sampleCount, branches[b].state)
     const main = scratch[0]
     for (let i = 0; i < sampleCount * C; i++) filteredStore[i] = main[i]
 

@@ -105,3 +105,22 @@ describe('Ledoit-Wolf and shrinkage LDA', () => {
     ref.testX.forEach((x, i) => expect(ldaDecide(lda, ldaScores(lda, x, scores)).probability).toBeCloseTo(Math.max(...ref.proba[i]), 9))
   })
 })
+
+describe('rank-deficient data', () => {
+  it('CSP on average-referenced trials (rank C-1) still solves, with a minimal ridge', () => {
+    // Re-referencing to the average makes the channels sum to zero (common practice in EEG).
+    const car = epochs.map((e) => {
+      const out = e.slice()
+      for (let t = 0; t < T; t++) {
+        let mean = 0
+        for (let c = 0; c < C; c++) mean += e[c * T + t] / C
+        for (let c = 0; c < C; c++) out[c * T + t] -= mean
+      }
+      return out
+    })
+    const fitted = cspMethod.fit(createTrialSet(car, C, T), labels, { channels: Array.from({ length: C }, (_, i) => `c${i}`), classes: ['a', 'b'], pairs: 2 })
+    expect(fitted.filters).toHaveLength(4)
+    fitted.eigenvalues!.forEach((v) => expect(v).toBeGreaterThanOrEqual(-1e-6))
+    fitted.eigenvalues!.forEach((v) => expect(v).toBeLessThanOrEqual(1 + 1e-6))
+  })
+})

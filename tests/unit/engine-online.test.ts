@@ -79,6 +79,18 @@ describe('online decoder', () => {
     expect(() => online.push(new Float32Array(5), 16)).toThrow(/need 16/)
   })
 
+  it('a non-finite input value is counted and replaced by 0 instead of poisoning the filter state', () => {
+    const online = createOnlineDecoder(decoder)
+    const block = interleaved(0, 16)
+    block[5] = Number.NaN
+    block[9] = Number.POSITIVE_INFINITY
+    expect(online.push(block, 16).invalidValues).toBe(2)
+    const next = online.push(interleaved(16, 600), 584)
+    expect(next.invalidValues).toBe(0)
+    expect(Number.isFinite(next.output)).toBe(true)
+    expect(Array.from(next.filtered).every(Number.isFinite)).toBe(true)
+  })
+
   it('a decoder saved as JSON and loaded again decodes identically', () => {
     const restored = JSON.parse(JSON.stringify(decoder))
     const a = replay(32)
