@@ -236,8 +236,14 @@ describe('incremental parser', () => {
     expect(readEdf(b).rateHz).toBe(250)
   })
   it('leaves out signals at another rate and says so', () => {
-    const { skippedSignals } = readEdfWithDetails(edf)
-    expect(skippedSignals).toEqual([])
+    expect(readEdfWithDetails(edf).skippedSignals).toEqual([])
+  })
+  it('sets a BioSemi Status channel aside (trigger bits, not microvolts)', async () => {
+    const { readBdfWithDetails } = await import('../../app/engine/formats/bdf')
+    const r: Recording = { channels: ['Fp1', 'Status'], rateHz: 10, data: [Float32Array.of(1, 2, 3, 4, 5, 6, 7, 8, 9, 10), new Float32Array(10)], cues: [], annotations: [] }
+    const { recording, skippedSignals } = readBdfWithDetails(writeRecording(r, 'bdf'))
+    expect(recording.channels).toEqual(['Fp1'])
+    expect(skippedSignals).toEqual([{ label: 'Status', reason: 'BioSemi trigger channel (trigger bits are not decoded)' }])
   })
 })
 

@@ -256,6 +256,11 @@ describe('fuzzing the CSV reader', () => {
     )
   })
 
+  it('the harness itself fails on any error other than RecordingFormatError', () => {
+    expect(() => check(() => { throw new TypeError('a defect') })).toThrow(TypeError)
+    expect(check(() => { throw new RecordingFormatError('a clear refusal of the input', { format: 'csv' }) })).toBe('refused')
+  })
+
   it('reports the figures', () => {
     // Printed for the closing note; the bound itself is asserted per parse above.
     console.log(`fuzz: ${parsed + refused} parses, ${parsed} read, ${refused} refused, slowest ${slowest.toFixed(1)} ms`)

@@ -81,7 +81,11 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
 
   function onHeader(h: EdfHeader): void {
     header = h
-    const data = h.signals.filter((s) => !s.isAnnotations)
+    // BioSemi's 'Status' channel carries trigger bits, not microvolts: decoding it is out of
+    // scope, and as an EEG channel it would wreck any spatial filter, so it is set aside.
+    const isTriggerChannel = (s: EdfSignalHeader) => h.variant === 'bdf' && /^status$/i.test(s.label)
+    const triggers = h.signals.filter(isTriggerChannel)
+    const data = h.signals.filter((s) => !s.isAnnotations && !isTriggerChannel(s))
     annotationSignals = h.signals.filter((s) => s.isAnnotations)
     // One recording has one rate: keep the signals sharing the most common rate (ties: the
     // higher), list the others as skipped rather than resample them silently.
@@ -91,9 +95,12 @@ export function createEdfParser(options: EdfReadOptions = {}): EdfParser {
     for (const [spr, n] of counts) if (n > (counts.get(best) ?? 0) || (n === counts.get(best) && spr > best)) best = spr
     samplesPerRecord = best
     const rate = (spr: number) => spr / h.recordDurationSeconds
-    skipped = data.filter((s) => s.samplesPerRecord !== best).map((s) => ({
-      label: s.label, reason: `sampled at ${rate(s.samplesPerRecord)} Hz, the other channels at ${rate(best)} Hz`,
-    }))
+    skipped = [
+      ...triggers.map((s) => ({ label: s.label, reason: 'BioSemi trigger channel (trigger bits are not decoded)' })),
+      ...data.filter((s) => s.samplesPerRecord !== best).map((s) => ({
+        label: s.label, reason: `sampled at ${rate(s.samplesPerRecord)} Hz, the other channels at ${rate(best)} Hz`,
+      })),
+    ]
     if (options.expectedBytes !== undefined) {
       const body = options.expectedBytes - h.headerBytes
       const whole = Math.floor(body / h.recordBytes)
