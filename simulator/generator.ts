@@ -129,6 +129,8 @@ export interface CueEvent {
   phase: CuePhase
   /** Sample index (of this device's stream) at which the cue was shown. */
   atSample: number
+  /** Run the trial belongs to; trial numbers restart in every run. */
+  runId?: string
 }
 
 export interface SimulationTruth {
@@ -171,6 +173,8 @@ interface PendingEvent {
   sample: number
   kind: 'start' | 'stop'
   trial: number
+  /** run and trial, so a trial number reused by the next run is a new trial */
+  key: string
   label: string
 }
 
@@ -312,7 +316,7 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
   const pending: PendingEvent[] = []
   const trials: TrialIntent[] = []
   let active: { intent: TrialIntent; areas: number[] } | null = null
-  const startedTrials = new Set<number>()
+  const startedTrials = new Set<string>()
 
   const schedule = (event: PendingEvent) => {
     let i = pending.length
@@ -344,8 +348,8 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
       stopTask()
       return
     }
-    if (startedTrials.has(event.trial)) return
-    startedTrials.add(event.trial)
+    if (startedTrials.has(event.key)) return
+    startedTrials.add(event.key)
     stopTask()
     const intent = decideTrial(participant, decisions, event.trial, event.label, classSet, sample / rateHz, sample)
     trials.push(intent)
@@ -536,11 +540,12 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
     generate,
     cue(event) {
       const at = Math.max(event.atSample, sample)
+      const key = `${event.runId ?? ''}:${event.trial}`
       if (event.phase === 'cue' || event.phase === 'imagery') {
-        if (!startedTrials.has(event.trial)) schedule({ sample: at + reactionSamples, kind: 'start', trial: event.trial, label: event.label })
+        if (!startedTrials.has(key)) schedule({ sample: at + reactionSamples, kind: 'start', trial: event.trial, key, label: event.label })
       } else {
         // Fixation, rest or the end of the run: whatever the participant was imagining stops.
-        schedule({ sample: at + reactionSamples, kind: 'stop', trial: -1, label: event.label })
+        schedule({ sample: at + reactionSamples, kind: 'stop', trial: -1, key, label: event.label })
       }
     },
     setParticipant(settings) {

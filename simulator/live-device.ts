@@ -84,7 +84,7 @@ export interface LiveDevice {
   setSkill(skill: number): void
   setArtifacts(settings: Partial<ArtifactSettings>): void
   setFaults(settings: Partial<FaultSettings>): void
-  /** One fault on the next block (or, for 'disconnect', now). */
+  /** One fault on the next block (queued one per block), or for 'disconnect' now. */
   inject(kind: FaultKind): void
   faultLog(): FaultLogEntry[]
   truth(): SimulationTruth
@@ -137,7 +137,8 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
   let faults: FaultSettings = { ...NO_FAULTS, ...options.faults }
   validateFaultSettings(faults)
   const faultRandom = createRandomStream(seed, StreamPurpose.faults)
-  const forced = new Set<FaultKind>()
+  // One-shot faults asked for by hand, one per block in the order asked.
+  const forcedQueue: FaultKind[] = []
   const reconnect = options.reconnect ?? true
   const maxReconnects = options.maxReconnects ?? 100
   const bufferBlocks = Math.max(1, Math.ceil(((options.bufferSeconds ?? 30) * rateHz) / blockSamples))
@@ -201,9 +202,9 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
     stats.samplesGenerated += blockSamples
     if (sampleOffset === null) return // not yet welcomed: the amplifier runs but nothing is numbered
     const firstSample = generatorFirst + sampleOffset
-    const decision = decideBlockFaults(faults, faultRandom, forced)
-    const forcedJitter = forced.has('jitter')
-    forced.clear()
+    const forcedKind = forcedQueue.shift()
+    const decision = decideBlockFaults(faults, faultRandom, new Set(forcedKind ? [forcedKind] : []))
+    const forcedJitter = forcedKind === 'jitter'
     const thisSeq = seq++
     const clean = encodeBlock({ seq: thisSeq, firstSample, channelCount: C, samples: block })
     if (decision.drop) {
@@ -309,7 +310,7 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
         stats.cuesReceived++
         stats.runId = message.runId
         const phase = message.phase as CuePhase
-        participant.cue({ trial: message.trial, label: message.label, phase, atSample: message.atSample - (sampleOffset ?? 0) })
+        participant.cue({ trial: message.trial, label: message.label, phase, atSample: message.atSample - (sampleOffset ?? 0), runId: message.runId })
         emit('cue', message)
         break
       }
@@ -441,7 +442,7 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
       if (kind === 'disconnect') {
         record({ kind: 'disconnect', detail: 'link dropped on request' })
         dropLink()
-      } else forced.add(kind)
+      } else if (forcedQueue.length < 100) forcedQueue.push(kind)
     },
     faultLog: () => log.map((e) => ({ ...e })),
     truth: () => participant.truth(),
