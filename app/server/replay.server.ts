@@ -180,6 +180,7 @@ export function scoreTrials(classes: string[], trialRows: TrialRow[], log: Repla
 export interface ReplayResult {
   runId: string
   runKind: 'calibration' | 'feedback'
+  rateHz: number
   decoder: { id: string; version: number; method: string }
   liveDecoderId: string | null
   sameDecoder: boolean
@@ -199,7 +200,7 @@ export interface ReplayResult {
  * a readable message when the run or decoder does not fit (other participant, other rate,
  * missing channels, no recording).
  */
-export async function replayRun(db: Database, labId: string, runId: string, decoderId: string): Promise<ReplayResult> {
+export async function replayRun(db: Database, labId: string, runId: string, decoderId: string, only?: { sessionId?: string }): Promise<ReplayResult> {
   const started = performance.now()
   const [row] = await db
     .select({ run: runs, session: sessions, protocol: protocols })
@@ -208,6 +209,7 @@ export async function replayRun(db: Database, labId: string, runId: string, deco
     .innerJoin(protocols, eq(protocols.id, sessions.protocolId))
     .where(and(eq(runs.id, runId), eq(sessions.labId, labId)))
   if (!row) throw new ReplayError('No such run.')
+  if (only?.sessionId && row.session.id !== only.sessionId) throw new ReplayError('That run is not part of this session.')
   const [decoderRow] = await db.select().from(decoders).where(and(eq(decoders.id, decoderId), eq(decoders.labId, labId)))
   if (!decoderRow) throw new ReplayError('No such decoder.')
   if (decoderRow.participantId !== row.session.participantId) throw new ReplayError('That decoder belongs to another participant; replay uses decoders of the run’s participant.')
@@ -248,6 +250,7 @@ export async function replayRun(db: Database, labId: string, runId: string, deco
   return {
     runId,
     runKind: run.kind,
+    rateHz: run.rateHz,
     decoder: { id: decoderRow.id, version: decoderRow.version, method: decoderRow.method },
     liveDecoderId: run.decoderId,
     sameDecoder: run.decoderId === decoderRow.id,
@@ -267,5 +270,28 @@ export async function replayRun(db: Database, labId: string, runId: string, deco
       replay: feedbackRunMetrics(classes, replayTrials, secondsPerTrial),
     },
     elapsedMs: performance.now() - started,
+  }
+}
+
+/** Points of the live/replay overlay sent to the browser. */
+export const REPLAY_CHART_POINTS = 3000
+
+/** What the review page shows of a replay: figures, trials and a thinned output overlay. */
+export interface ReplayView extends Omit<ReplayResult, 'replay' | 'live'> {
+  replayCount: number
+  liveCount: number
+  chart: { sample: number[]; live: (number | null)[]; replay: (number | null)[] }
+}
+
+export function replayView(result: ReplayResult): ReplayView {
+  const { replay, live, ...rest } = result
+  const liveBySample = new Map(live.map((d) => [d.sample, d.output]))
+  const stride = Math.max(1, Math.ceil(replay.length / REPLAY_CHART_POINTS))
+  const picked = replay.filter((_, i) => i % stride === 0)
+  return {
+    ...rest,
+    replayCount: replay.length,
+    liveCount: live.length,
+    chart: { sample: picked.map((d) => d.sample), live: picked.map((d) => liveBySample.get(d.sample) ?? null), replay: picked.map((d) => d.output) },
   }
 }
