@@ -193,7 +193,13 @@ class DeviceConnection implements LinkHandle {
 
   private onHello(data: RawData, isBinary: boolean): void {
     if (isBinary) throw new FrameError(CloseCode.helloRequired, 'a sample block arrived before the hello')
-    const json = parseJsonFrame(data.toString())
+    let json: unknown
+    try {
+      json = parseJsonFrame(data.toString())
+    } catch (error) {
+      if (error instanceof FrameError && error.code === CloseCode.badMessage) throw new FrameError(CloseCode.badHello, 'hello is not valid JSON')
+      throw error
+    }
     const type = (json as { type?: unknown } | null)?.type
     if (type !== 'hello') throw new FrameError(CloseCode.helloRequired, `the first message must be a hello, got ${typeof type === 'string' ? type : 'no type'}`)
     const protocol = (json as { protocol?: unknown }).protocol

@@ -515,7 +515,7 @@ export class LiveSession {
         },
       })
       .where(eq(runs.id, run.id))
-    this.event(`run_${status}`, this.processedSample - run.startSample, { reason })
+    this.event(`run_${status}`, this.processedSample - run.startSample, { reason }, run.id)
     const end: CueInfo = { runId: run.id, trial: run.trialsDone, label: '', phase: 'rest', atSample: this.processedSample, durationMs: 0 }
     this.lastCue = null
     this.link?.send({ type: 'cue', runId: run.id, trial: end.trial, label: '', phase: 'end', atSample: this.processedSample })
@@ -571,9 +571,10 @@ export class LiveSession {
 
   // ---- views ------------------------------------------------------------------------------
 
-  event(kind: string, sample: number | null, detail: Record<string, unknown>): void {
+  /** Records a session event (in the run in progress unless `runId` is given) and shows it on the console. */
+  event(kind: string, sample: number | null, detail: Record<string, unknown>, runId: string | null = this.run?.active ? this.run.id : null): void {
     const atMs = Date.now()
-    this.ctx.writer.event({ sessionId: this.id, runId: this.run?.active ? this.run.id : null, kind, sample, detail, atMs })
+    this.ctx.writer.event({ sessionId: this.id, runId, kind, sample, detail, atMs })
     this.operatorHub.publish('event', { kind, at: new Date(atMs).toISOString(), sample, detail })
   }
 

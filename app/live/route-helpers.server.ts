@@ -1,6 +1,5 @@
 // Shared by the live resource routes: who may do what, form parsing and error replies. Kept free
 // of the live runtime itself so route modules stay light in the app bundle.
-import { data } from 'react-router'
 import type { z } from 'zod'
 import type { Role } from '../server/services.ts'
 
@@ -26,7 +25,7 @@ export async function readBody<T extends z.ZodType>(request: Request, schema: T)
   const parsed = schema.safeParse(raw)
   if (!parsed.success) {
     const issue = parsed.error.issues[0]
-    throw data({ ok: false, message: `${issue.path.join('.') || 'form'}: ${issue.message}` }, { status: 400 })
+    throw Response.json({ ok: false, message: `${issue.path.join('.') || 'form'}: ${issue.message}` }, { status: 400 })
   }
   return parsed.data
 }

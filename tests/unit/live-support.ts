@@ -103,10 +103,14 @@ export interface Closed {
 export class TestDevice {
   readonly ws: WebSocket
   readonly messages: ServerMessage[] = []
+  readonly acks: Extract<ServerMessage, { type: 'ack' }>[] = []
   readonly opened: Promise<void>
   readonly closed: Promise<Closed>
   seq = 0
   sample = 0
+  /** The cue in force as the server announced it (cue and imagery phases), for simulated imagery. */
+  cue: string | null = null
+  private noise = 12345
   private waiters: { match: (m: ServerMessage) => boolean; resolve: (m: ServerMessage) => void }[] = []
 
   constructor(url: string) {
@@ -120,7 +124,9 @@ export class TestDevice {
     this.ws.on('message', (data, isBinary) => {
       if (isBinary) return
       const message = JSON.parse(data.toString()) as ServerMessage
-      this.messages.push(message)
+      if (message.type === 'cue') this.cue = message.phase === 'cue' || message.phase === 'imagery' ? message.label : null
+      if (message.type !== 'ack') this.messages.push(message)
+      else this.acks.push(message)
       this.waiters = this.waiters.filter((w) => {
         if (!w.match(message)) return true
         w.resolve(message)
@@ -152,13 +158,25 @@ export class TestDevice {
     return w
   }
 
-  /** Sends one block of `sampleCount` samples of a 10 Hz, 20 µV sine (plus a little offset per channel). */
+  /**
+   * Sends one block: a 10 Hz, 20 µV rhythm on every channel plus noise. While a cue is in force
+   * the rhythm drops to 30 % on the half of the channels "opposite" the cued class (a crude
+   * stand-in for event-related desynchronisation, enough for a decoder to find).
+   */
   block(channelCount: number, sampleCount = 16, rateHz = 500, override: { seq?: number; firstSample?: number; value?: number } = {}): void {
     const samples = new Float32Array(channelCount * sampleCount)
     const first = override.firstSample ?? this.sample
+    const half = channelCount >> 1
     for (let s = 0; s < sampleCount; s++) {
-      const v = override.value ?? 20 * Math.sin((2 * Math.PI * 10 * (first + s)) / rateHz)
-      for (let c = 0; c < channelCount; c++) samples[s * channelCount + c] = v + c * 0.5
+      const rhythm = 20 * Math.sin((2 * Math.PI * 10 * (first + s)) / rateHz)
+      for (let c = 0; c < channelCount; c++) {
+        let gain = 1
+        if (this.cue === 'left' && c >= half) gain = 0.3
+        if (this.cue === 'right' && c < half) gain = 0.3
+        this.noise = (this.noise * 1103515245 + 12345) >>> 0
+        const noise = ((this.noise / 4294967296) - 0.5) * 6
+        samples[s * channelCount + c] = override.value ?? rhythm * gain * (1 + (c % 3) * 0.1) + noise
+      }
     }
     this.ws.send(encodeBlock({ seq: override.seq ?? this.seq, firstSample: first, channelCount, samples }))
     if (override.seq === undefined) this.seq++
