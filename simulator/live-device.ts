@@ -291,8 +291,11 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
         welcomed = true
         stats.sessionId = message.sessionId
         stats.runId = message.runId
-        if (sampleOffset === null) {
+        if (sampleOffset === null || message.runId === null) {
+          // A fresh link (no run to resume): number from the server's nextSample on; what was
+          // buffered under the old numbering is of no use to it.
           sampleOffset = message.nextSample - stats.samplesGenerated
+          ring.length = 0
         } else {
           // Resend what the server did not get while the link was down, if still buffered.
           const resend = ring.filter((b) => b.firstSample >= message.nextSample)
