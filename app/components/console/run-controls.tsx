@@ -83,7 +83,7 @@ export function RunControls({ defaultTrialsPerClass }: { defaultTrialsPerClass: 
             className="field mt-1 w-20 py-1"
           />
         </label>
-        <button type="button" className="btn-primary" disabled={busy || !allow.startCalibration} onClick={() => send({ intent: 'start', kind: 'calibration', trialsPerClass })}>
+        <button type="button" className="btn-primary disabled:bg-ink-700 disabled:text-haze disabled:opacity-100" disabled={busy || !allow.startCalibration} onClick={() => send({ intent: 'start', kind: 'calibration', trialsPerClass })}>
           Start calibration
         </button>
         <button

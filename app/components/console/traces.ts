@@ -134,6 +134,8 @@ export class EegTraces {
 /** Cue bands drawn as filled step series behind a trace: one series per class. */
 class CueBands {
   private series = new Map<string, TimeSeries>()
+  private on: string | null = null
+  private timer: ReturnType<typeof setInterval>
   constructor(
     private readonly chart: SmoothieChart,
     private readonly classes: string[],
@@ -143,13 +145,23 @@ class CueBands {
     for (const label of classes) {
       const s = new TimeSeries()
       this.series.set(label, s)
-      chart.addTimeSeries(s, { strokeStyle: 'rgba(0,0,0,0)', fillStyle: `${classColour(classes, label)}33`, lineWidth: 0, interpolation: 'step' })
+      chart.addTimeSeries(s, { strokeStyle: 'rgba(0,0,0,0)', fillStyle: `${classColour(classes, label)}40`, lineWidth: 0, interpolation: 'step' })
     }
+    // A step series is drawn only up to its last point: extend the band in force to now.
+    this.timer = setInterval(() => this.extend(Date.now()), 100)
+  }
+
+  private extend(t: number): void {
+    for (const [label, s] of this.series) s.append(t, label === this.on ? this.high : this.low)
   }
 
   cue(cue: CueInfo, t: number): void {
-    const on = cue.phase === 'cue' || cue.phase === 'imagery'
-    for (const [label, s] of this.series) s.append(t, on && label === cue.label ? this.high : this.low)
+    this.on = cue.phase === 'cue' || cue.phase === 'imagery' ? cue.label : null
+    this.extend(t)
+  }
+
+  stop(): void {
+    clearInterval(this.timer)
   }
 }
 
@@ -189,6 +201,7 @@ export class OutputTraces {
   }
 
   stop(): void {
+    this.bands.stop()
     this.chart.stop()
   }
 }
