@@ -278,6 +278,7 @@ export function startLiveDevice(options: LiveDeviceOptions): LiveDevice {
   }
 
   const onMessage = (text: string) => {
+    if (state === 'stopped') return // e.g. a reply to our bye while closing
     let message: ServerMessage
     try {
       message = JSON.parse(text) as ServerMessage
