@@ -6,6 +6,7 @@
 import type { Decoder } from './decoder'
 import { createFilterState, designDecoderFilter, packSos, sosFilterInto, type FilterState } from './filters'
 import { ldaDecide, ldaScores, type LdaDecision } from './lda'
+import { projectSquares } from './projection'
 
 export interface OnlineOutput {
   /** true once a whole window of samples has been seen */
@@ -35,20 +36,9 @@ interface BandBranch {
   state: FilterState
   /** component indices using this band */
   components: number[]
-}
-
-/** w · x[offset .. offset + C), four accumulators for instruction-level parallelism. */
-function dot(w: Float64Array, x: Float64Array, offset: number, C: number): number {
-  let a0 = 0, a1 = 0, a2 = 0, a3 = 0
-  let c = 0
-  for (; c + 3 < C; c += 4) {
-    a0 += w[c] * x[offset + c]
-    a1 += w[c + 1] * x[offset + c + 1]
-    a2 += w[c + 2] * x[offset + c + 2]
-    a3 += w[c + 3] * x[offset + c + 3]
-  }
-  for (; c < C; c++) a0 += w[c] * x[offset + c]
-  return a0 + a1 + (a2 + a3)
+  /** their filters, row-major (components × channels), and their rows in the squares buffer */
+  weights: Float64Array
+  rows: Int32Array
 }
 
 export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
@@ -66,11 +56,15 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   for (const b of decoder.componentBands) if (!bands.some((x) => bandKey(x) === bandKey(b))) bands.push(b)
   const branches: BandBranch[] = bands.map((band) => {
     const sos = designDecoderFilter({ band, order: decoder.filterOrder, rateHz: decoder.rateHz, notchHz: decoder.notchHz })
-    return { packed: packSos(sos), state: createFilterState(sos, C), components: [] }
+    return { packed: packSos(sos), state: createFilterState(sos, C), components: [] as number[], weights: new Float64Array(0), rows: new Int32Array(0) }
   })
   decoder.componentBands.forEach((b, k) => branches[bands.findIndex((x) => bandKey(x) === bandKey(b))].components.push(k))
+  for (const br of branches) {
+    br.weights = new Float64Array(br.components.length * C)
+    br.components.forEach((k, j) => br.weights.set(decoder.filters[k], j * C))
+    br.rows = Int32Array.from(br.components)
+  }
 
-  const weights = decoder.filters.map((w) => Float64Array.from(w))
   const ring = new Float64Array(K * n)
   const sums = new Float64Array(K)
   const bandPower = new Float64Array(K)
@@ -82,7 +76,6 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   let scratch: Float64Array[] = []
   let squares = new Float64Array(0)
   let filteredStore = new Float32Array(0)
-  let cleaned = new Float32Array(0)
   const views = new Map<number, Float32Array>()
 
   const result: OnlineOutput = {
@@ -102,7 +95,6 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     scratch = branches.map(() => new Float64Array(capacity * C))
     squares = new Float64Array(capacity * K)
     filteredStore = new Float32Array(capacity * C)
-    cleaned = new Float32Array(capacity * C)
     views.clear()
   }
 
@@ -111,32 +103,31 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     if (samples.length < sampleCount * C) throw new Error(`block holds ${samples.length} values, need ${sampleCount}×${C}`)
     ensureCapacity(sampleCount)
     // One NaN would stay in an IIR filter's state for good; a dropped value becomes 0 instead.
-    let invalid = 0
+    // (v - v is 0 for every finite v and NaN for NaN and ±Infinity.)
     const values = sampleCount * C
-    for (let i = 0; i < values; i++) if (!Number.isFinite(samples[i])) invalid++
-    let input: Float32Array = samples
-    if (invalid > 0) {
-      for (let i = 0; i < values; i++) cleaned[i] = Number.isFinite(samples[i]) ? samples[i] : 0
-      input = cleaned
+    const first = scratch[0]
+    let invalid = 0
+    for (let i = 0; i < values; i++) {
+      const v = samples[i]
+      if (v - v === 0) first[i] = v
+      else {
+        first[i] = 0
+        invalid++
+      }
     }
     result.invalidValues = invalid
-    for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, input, scratch[b], sampleCount, branches[b].state)
+    for (let b = 1; b < branches.length; b++) {
+      const dst = scratch[b]
+      for (let i = 0; i < values; i++) dst[i] = first[i]
+    }
+    for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, scratch[b], scratch[b], sampleCount, branches[b].state)
     const main = scratch[0]
     for (let i = 0; i < sampleCount * C; i++) filteredStore[i] = main[i]
 
-    // Squared component values of every sample in the block, component by component.
+    // Squared component values of every sample in the block.
     for (let b = 0; b < branches.length; b++) {
-      const x = scratch[b]
-      const comps = branches[b].components
-      for (let ci = 0; ci < comps.length; ci++) {
-        const k = comps[ci]
-        const w = weights[k]
-        const row = k * capacity
-        for (let s = 0; s < sampleCount; s++) {
-          const y = dot(w, x, s * C, C)
-          squares[row + s] = y * y
-        }
-      }
+      const br = branches[b]
+      projectSquares(br.weights, br.components.length, C, scratch[b], sampleCount, squares, br.rows, capacity)
     }
     // Sliding-window sums, sample by sample (the same order for any block split).
     for (let s = 0; s < sampleCount; s++) {
