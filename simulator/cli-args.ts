@@ -34,7 +34,8 @@ blocks by the wall clock and follows the cues the server sends, until --duration
   --blinks N, --muscle N, --pops N   events per minute
   --flat a,b / --noisy a,b           channels that are flat / noisy
   --reference infinity|average       reference of the simulated potentials (default infinity)
-  --truth FILE          also write what was planted (patterns, ERD per trial) as JSON
+  --truth FILE          also write what was planted (patterns, ERD per trial; in live mode
+                        also the fault log) as JSON
   --faults LIST         live mode: e.g. drop=0.01,duplicate=0.01,reorder=0.01,nan=0.001,
                         wrong-channel-count=0.001,jitter=30 (ms),disconnect=60 (every N s),
                         reconnect-delay=1000 (ms)

@@ -194,6 +194,37 @@ describe('generator', () => {
     expect(trials[0].startSample).toBe(100 + Math.round(0.35 * 250))
   })
 
+  it('beta power overshoots its resting level after the imagery ends (post-imagery beta rebound, Pfurtscheller & Lopes da Silva 1999)', () => {
+    const rateHz = 250
+    const p = createSimulatedParticipant({
+      channels: ['C3', 'Cz', 'C4'], rateHz, seed: 21, artifacts: NO_ARTIFACTS,
+      rhythms: { muUv: 0, alphaUv: 0, backgroundUv: 0, sensorNoiseUv: 0 }, participant: { skill: 1, betaRebound: 0.5, depthSpread: 0 },
+    })
+    const trialSamples = 10 * rateHz
+    for (let t = 0; t < 40; t++) {
+      const cue = t * trialSamples + 3 * rateHz
+      p.cue({ trial: t, label: 'right', phase: 'cue', atSample: cue })
+      p.cue({ trial: t, label: 'right', phase: 'rest', atSample: cue + 3 * rateHz })
+    }
+    const x = p.generate(40 * trialSamples)
+    const power = (from: number, to: number) => {
+      let sum = 0
+      for (let s = from; s < to; s++) sum += x[s * 3] ** 2 // C3
+      return sum / (to - from)
+    }
+    let baseline = 0
+    let imagery = 0
+    let rebound = 0
+    for (let t = 0; t < 40; t++) {
+      const cue = t * trialSamples + 3 * rateHz
+      baseline += power(cue - 2 * rateHz, cue)
+      imagery += power(cue + rateHz, cue + 3 * rateHz)
+      rebound += power(cue + 3.5 * rateHz, cue + 4.5 * rateHz)
+    }
+    expect(imagery / baseline).toBeLessThan(0.85)
+    expect(rebound / baseline).toBeGreaterThan(1.15)
+  })
+
   it('rejects bad settings with messages that name them', () => {
     expect(() => createSimulatedParticipant({ ...base, rateHz: 10 })).toThrow(/sample rate/)
     expect(() => createSimulatedParticipant({ ...base, channels: ['C3', 'XX9'] })).toThrow(/XX9/)

@@ -84,6 +84,7 @@ async function runLiveMode(a: SimulateArgs): Promise<number> {
   if (timer) clearTimeout(timer)
   process.off('SIGINT', stop)
   process.off('SIGTERM', stop)
+  if (a.truthFile) writeFileSync(a.truthFile, JSON.stringify({ ...device.truth(), faultLog: device.faultLog(), stats: device.stats }, null, 1))
   const s = device.stats
   console.log(`stopped: ${s.blocksSent} blocks, ${s.samplesGenerated} samples, ${s.cuesReceived} cues, ${s.reconnects} reconnects${s.lastClose ? `, last close ${s.lastClose.code} ${s.lastClose.reason}` : ''}`)
   return exitCode
