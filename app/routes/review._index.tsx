@@ -2,12 +2,15 @@
 // filter, sort or page change fetches /api/v1/sessions in the browser and writes the filter
 // state into the URL (replace, no loader run), so a link or a reload shows the same view.
 import { useEffect, useRef, useState } from 'react'
-import { Link, useSearchParams, type ShouldRevalidateFunction } from 'react-router'
+import { Form, Link, useSearchParams, type ShouldRevalidateFunction } from 'react-router'
 import type { Route } from './+types/review._index'
 import { PageHeader } from '~/components/page'
 import { RouteError } from '~/components/route-error'
 import { SESSION_STATUSES, SessionTable, SIGNOFF_STATES } from '~/components/session-table'
+import { parseForm } from '~/lib/forms'
+import { clientIp } from '~/server/audit.server'
 import { requireUser } from '~/server/auth.server'
+import { digestSwitchForm, setWeeklyDigest, weeklyDigestEnabled } from '~/server/reports.server'
 import { listSessions, parseSessionLogQuery, sessionLogFilterOptions, sessionLogQuery, type SessionLogPage } from '~/server/review.server'
 
 export const meta: Route.MetaFunction = () => [{ title: 'Review · Tiller' }]
@@ -18,8 +21,17 @@ export async function loader({ request, context }: Route.LoaderArgs) {
   const parsed = parseSessionLogQuery(new URL(request.url).searchParams)
   // A hand-edited URL with a bad filter shows the unfiltered log and says which filter was wrong.
   const query = parsed.ok ? parsed.query : sessionLogQuery.parse({})
-  const [page, options] = await Promise.all([listSessions(db, user.labId, query), sessionLogFilterOptions(db, user.labId)])
-  return { page, options, queryErrors: parsed.ok ? null : parsed.errors, canUpload: user.role !== 'developer' }
+  const [page, options, digest] = await Promise.all([listSessions(db, user.labId, query), sessionLogFilterOptions(db, user.labId), weeklyDigestEnabled(db, user.labId)])
+  return { page, options, queryErrors: parsed.ok ? null : parsed.errors, canUpload: user.role !== 'developer', supervisor: user.role === 'supervisor', digest }
+}
+
+/** The weekly digest switch (supervisors). */
+export async function action({ request, context }: Route.ActionArgs) {
+  const user = await requireUser(request, context, { roles: ['supervisor'] })
+  const parsed = parseForm(digestSwitchForm, await request.formData())
+  if (!parsed.ok) return { ok: false as const }
+  await setWeeklyDigest(context.services.db, user, parsed.data.enabled === 'on', clientIp(request))
+  return { ok: true as const }
 }
 
 // Filter changes are fetched through the API; only a new path needs the loader again.
@@ -96,11 +108,22 @@ export default function ReviewIndex({ loaderData }: Route.ComponentProps) {
         title="Review"
         lead="Every session of the lab: find one, open its review, sign it off."
         actions={
-          loaderData.canUpload ? (
-            <Link to="/uploads" className="btn-quiet">
-              Import a recording
-            </Link>
-          ) : null
+          <>
+            {loaderData.supervisor ? (
+              <Form method="post" className="flex items-center">
+                <input type="hidden" name="intent" value="weekly-digest" />
+                <input type="hidden" name="enabled" value={loaderData.digest ? 'off' : 'on'} />
+                <button type="submit" className="btn-quiet" aria-pressed={loaderData.digest}>
+                  Weekly digest e-mail: {loaderData.digest ? 'on' : 'off'}
+                </button>
+              </Form>
+            ) : null}
+            {loaderData.canUpload ? (
+              <Link to="/uploads" className="btn-quiet">
+                Import a recording
+              </Link>
+            ) : null}
+          </>
         }
       />
       <form className="panel mb-6 grid grid-cols-2 gap-4 md:grid-cols-4 lg:grid-cols-7" role="search" aria-label="Filter sessions" onSubmit={(e) => e.preventDefault()}>

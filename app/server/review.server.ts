@@ -593,3 +593,21 @@ export async function participantProgress(db: Database, labId: string, participa
   })
   return { participant: { id: participant.id, code: participant.code }, points }
 }
+
+/** A run's trials and figures, for the API (no timeline, no signal-quality pass). */
+export async function runFigures(db: Database, runId: string) {
+  const [row] = await db.select({ run: runs, protocol: protocols }).from(runs).innerJoin(sessions, eq(sessions.id, runs.sessionId)).innerJoin(protocols, eq(protocols.id, sessions.protocolId)).where(eq(runs.id, runId))
+  if (!row) return null
+  const trialRows: TrialRow[] = await db
+    .select({ index: trials.index, label: trials.label, cueSample: trials.cueSample, endSample: trials.endSample, outcome: trials.outcome, decidedClass: trials.decidedClass })
+    .from(trials)
+    .where(eq(trials.runId, runId))
+    .orderBy(asc(trials.index))
+  const latencies = await db.select({ us: decisions.latencyUs }).from(decisions).where(eq(decisions.runId, runId))
+  const { edgesMs: _e, counts: _c, ...latency } = latencySummary(latencies.map((l) => l.us))
+  return {
+    trials: trialRows,
+    metrics: row.run.kind === 'feedback' ? feedbackRunMetrics(row.protocol.classes, trialRows, secondsPerTrialOf(trialRows, row.run.rateHz, row.protocol)) : null,
+    latency,
+  }
+}
