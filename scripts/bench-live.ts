@@ -13,6 +13,7 @@
 // Bounded: every run stops by itself after its seconds; the server child is killed at the end.
 import { spawn, type ChildProcess } from 'node:child_process'
 import { createServer, request as httpRequest } from 'node:http'
+import { loadavg } from 'node:os'
 import { fileURLToPath } from 'node:url'
 import WebSocket from 'ws'
 import { encodeBlock } from '../app/ingest/protocol.ts'
@@ -28,6 +29,8 @@ interface Args {
   heavy: ('off' | 'on')[]
   port: number
   serve: boolean
+  /** Where PGlite runs: 'main' (as app/db/client.server.ts opens it) or 'thread' (app/db/pglite-thread.server.ts). */
+  db: ('main' | 'thread')[]
 }
 
 function parseArgs(argv: string[]): Args {
@@ -47,6 +50,7 @@ function parseArgs(argv: string[]): Args {
     heavy: heavyOnly ? ['on'] : noHeavy || (json && devices) ? ['off'] : ['off', 'on'],
     port: Number(get('--port') ?? 4250),
     serve: argv.includes('--serve'),
+    db: get('--db') === 'thread' ? ['thread'] : get('--db') === 'main' ? ['main'] : get('--db') === 'both' ? ['main', 'thread'] : ['main'],
   }
 }
 
@@ -54,7 +58,7 @@ function parseArgs(argv: string[]): Args {
 // Server child: the real live services on an in-memory database, behind a plain HTTP server.
 // ---------------------------------------------------------------------------------------
 
-async function serve(port: number, devices: number): Promise<void> {
+async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): Promise<void> {
   const { eq, sql } = await import('drizzle-orm')
   const { openDatabase } = await import('../app/db/client.server.ts')
   const schema = await import('../app/db/schema.ts')
@@ -65,9 +69,19 @@ async function serve(port: number, devices: number): Promise<void> {
   const { trainDecoder } = await import('../app/engine/decoder.ts')
   const { simulateImagery } = await import('../app/engine/synthetic.ts')
 
-  const handle = await openDatabase('memory://')
-  await handle.migrate()
-  const db = handle.db
+  let db: import('../app/db/client.server.ts').Database
+  if (dbMode === 'thread') {
+    const { drizzle } = await import('drizzle-orm/pglite')
+    const { migrate } = await import('drizzle-orm/pglite/migrator')
+    const { openPgliteThread } = await import('../app/db/pglite-thread.server.ts')
+    const { migrationsFolder } = await import('../app/db/client.server.ts')
+    db = drizzle((await openPgliteThread(null)) as never, { schema }) as never
+    await migrate(db as never, { migrationsFolder })
+  } else {
+    const handle = await openDatabase('memory://')
+    await handle.migrate()
+    db = handle.db
+  }
   const { labId } = await seedDemo(db)
   const config = loadConfig({ NODE_ENV: 'production', SESSION_SECRET: 'bench-secret-bench-secret-bench-secret', PORT: String(port) })
   const live = await createLiveServices({ db, config, log: () => undefined })
@@ -206,6 +220,8 @@ function getJson<T>(port: number, path: string): Promise<T> {
 
 interface RunFigures {
   devices: number
+  database_thread: 'main' | 'thread'
+  load_average_1min: number
   seconds: number
   heavy_query: boolean
   p50_ms: number
@@ -223,8 +239,8 @@ interface RunFigures {
   max_flush_ms: number
 }
 
-async function runOnce(devices: number, seconds: number, heavy: boolean, port: number): Promise<RunFigures> {
-  const child: ChildProcess = spawn(process.execPath, [...process.execArgv, fileURLToPath(import.meta.url), '--serve', '--port', String(port), '--devices', String(devices)], {
+async function runOnce(devices: number, seconds: number, heavy: boolean, port: number, dbMode: 'main' | 'thread'): Promise<RunFigures> {
+  const child: ChildProcess = spawn(process.execPath, [...process.execArgv, fileURLToPath(import.meta.url), '--serve', '--port', String(port), '--devices', String(devices), '--db', dbMode], {
     stdio: ['ignore', 'inherit', 'inherit', 'ipc'],
   })
   const killTimer = setTimeout(() => child.kill('SIGKILL'), (seconds + 120) * 1000)
@@ -344,6 +360,8 @@ async function runOnce(devices: number, seconds: number, heavy: boolean, port: n
     const q = (arr: number[], p: number) => (arr.length ? arr[Math.min(arr.length - 1, Math.floor(p * arr.length))] : null)
     return {
       devices,
+      database_thread: dbMode,
+      load_average_1min: round(loadavg()[0]),
       seconds,
       heavy_query: heavy,
       p50_ms: round(stats.p50Ms),
@@ -386,23 +404,24 @@ function roundOrNull(v: number | null): number | null {
 async function main() {
   const args = parseArgs(process.argv.slice(2))
   if (args.serve) {
-    await serve(args.port, args.devices[0])
+    await serve(args.port, args.devices[0], args.db[0])
     return
   }
   // Keep the driver from exiting with a dangling server if interrupted.
   void createServer
   const results: RunFigures[] = []
   let port = args.port
+  for (const dbMode of args.db)
   for (const heavy of args.heavy) {
     for (const devices of args.devices) {
-      const r = await runOnce(devices, args.seconds, heavy === 'on', port++)
+      const r = await runOnce(devices, args.seconds, heavy === 'on', port++, dbMode)
       results.push(r)
       if (!args.json) {
         console.log(
-          `devices ${String(r.devices).padStart(2)}  heavy query ${r.heavy_query ? 'on ' : 'off'}  latency p50 ${r.p50_ms.toFixed(2)} ms  p99 ${r.p99_ms.toFixed(2)} ms  max ${r.max_ms.toFixed(1)} ms` +
+          `db ${r.database_thread.padEnd(6)} devices ${String(r.devices).padStart(2)}  heavy query ${r.heavy_query ? 'on ' : 'off'}  latency p50 ${r.p50_ms.toFixed(2)} ms  p99 ${r.p99_ms.toFixed(2)} ms  max ${r.max_ms.toFixed(1)} ms` +
             `  (end to end p50 ${r.e2e_p50_ms?.toFixed(2)} p99 ${r.e2e_p99_ms?.toFixed(2)} ms)  decisions made ${r.decisions_made} logged ${r.decisions_logged}` +
             `  cpu ${r.cpu_percent_of_one_core.toFixed(0)} % of a core  rss ${r.rss_mb_start.toFixed(0)} -> ${r.rss_mb_end.toFixed(0)} MB` +
-            (r.heavy_query ? `  heavy queries ${r.heavy_queries} (median ${r.heavy_query_ms_median?.toFixed(0)} ms)` : ''),
+            (r.heavy_query ? `  heavy queries ${r.heavy_queries} (median ${r.heavy_query_ms_median?.toFixed(0)} ms)` : '') + `  load ${r.load_average_1min}`,
         )
       }
     }
