@@ -251,6 +251,17 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
   const bgY = new Float64Array(backgroundIdx.length * M)
   const chX = new Float64Array(C * M)
   const chY = new Float64Array(C * M)
+  /** One sample through the pinking cascade whose state starts at offset `o` of x and y. */
+  const pinkStep = (input: number, x: Float64Array, y: Float64Array, o: number): number => {
+    let v = input
+    for (let m = 0; m < M; m++) {
+      const out = v - zeros[m] * x[o + m] + poles[m] * y[o + m]
+      x[o + m] = v
+      y[o + m] = out
+      v = out
+    }
+    return v
+  }
   const backgroundScale = (rhythms.backgroundUv / Math.sqrt(backgroundIdx.length)) * pink.gain
   const sensorScale = rhythms.sensorNoiseUv * pink.gain
 
@@ -393,15 +404,7 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
       }
       for (let i = 0; i < alphaIdx.length; i++) sourceValues[alphaIdx[i]] = rhythms.alphaUv * resY1[2 * motorIdx.length + i]
       for (let i = 0; i < backgroundIdx.length; i++) {
-        let v = noise.gaussian()
-        const o = i * M
-        for (let m = 0; m < M; m++) {
-          const y = v - zeros[m] * bgX[o + m] + poles[m] * bgY[o + m]
-          bgX[o + m] = v
-          bgY[o + m] = y
-          v = y
-        }
-        sourceValues[backgroundIdx[i]] = backgroundScale * v
+        sourceValues[backgroundIdx[i]] = backgroundScale * pinkStep(noise.gaussian(), bgX, bgY, i * M)
       }
 
       // Eye and muscle artifacts.
@@ -484,16 +487,8 @@ export function createSimulatedParticipant(options: SimulatorOptions): Simulated
       }
       const base = s * C
       for (let c = 0; c < C; c++) {
-        let v = sensorRandom.gaussian()
-        const o = c * M
-        for (let m = 0; m < M; m++) {
-          const y = v - zeros[m] * chX[o + m] + poles[m] * chY[o + m]
-          chX[o + m] = v
-          chY[o + m] = y
-          v = y
-        }
         drift[c] += driftSlope[c]
-        buffer[base + c] = sensorScale * v + drift[c] + mainsGain[c] * mains
+        buffer[base + c] = sensorScale * pinkStep(sensorRandom.gaussian(), chX, chY, c * M) + drift[c] + mainsGain[c] * mains
       }
       if (activePops > 0) {
         activePops = 0
