@@ -11,13 +11,12 @@ import {
   benchActionSchema,
   benchSessions,
   benchStatus,
-  DEFAULT_BENCH_SETTINGS,
   injectBenchFault,
   startBenchDevice,
   stopBenchDevice,
   updateBenchDevice,
-  type BenchSettings,
 } from '~/server/bench.server'
+import { DEFAULT_BENCH_SETTINGS, type BenchSettings } from '~/lib/bench-settings'
 import { FAULT_KINDS } from '../../simulator/faults'
 
 export const meta: Route.MetaFunction = () => [{ title: 'Bench · Tiller' }]

@@ -14,40 +14,9 @@ import { createDeviceToken, revokeDeviceToken } from '~/live/tokens.server'
 import { audit } from '~/server/audit.server'
 import type { Config } from '~/server/config.server'
 import type { SessionUser } from '~/server/services'
+import type { BenchSettings } from '~/lib/bench-settings'
 import { FAULT_KINDS, type FaultKind } from '../../simulator/faults'
 import { startLiveDevice, type LiveDevice } from '../../simulator/live-device'
-
-export interface BenchSettings {
-  skill: number
-  blinksPerMinute: number
-  muscleBurstsPerMinute: number
-  mainsHz: 0 | 50 | 60
-  mainsUv: number
-  flatChannels: string[]
-  noisyChannels: string[]
-  jitterMs: number
-  dropRate: number
-  reorderRate: number
-  duplicateRate: number
-  nanRate: number
-  disconnectEverySeconds: number
-}
-
-export const DEFAULT_BENCH_SETTINGS: BenchSettings = {
-  skill: 0.8,
-  blinksPerMinute: 12,
-  muscleBurstsPerMinute: 2,
-  mainsHz: 50,
-  mainsUv: 4,
-  flatChannels: [],
-  noisyChannels: [],
-  jitterMs: 0,
-  dropRate: 0,
-  reorderRate: 0,
-  duplicateRate: 0,
-  nanRate: 0,
-  disconnectEverySeconds: 0,
-}
 
 interface BenchDevice {
   sessionId: string

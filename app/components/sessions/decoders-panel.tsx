@@ -1,14 +1,13 @@
 // Decoders of a session: train one from chosen calibration runs (the live API compares every
 // spatial method with chronological cross-validation), see the comparison, the CV accuracy
 // against the chance level, and the patterns on the scalp; activate one for feedback runs.
-import { useState } from 'react'
+import { useEffect, useState } from 'react'
 import { useRevalidator } from 'react-router'
 import type { SessionOverview } from '~/server/sessions.server'
 import type { TrainingInfo } from '~/live/events'
 import { PatternMap, type Electrode } from '~/components/console/scalp'
 import { StatusBadge } from '~/components/console/status-badge'
 import { livePaths, postLive } from '~/components/console/live-client'
-import { useEventSource } from '~/components/console/use-event-source'
 
 type Overview = SessionOverview
 type DecoderRow = Overview['decoders'][number]
@@ -102,15 +101,20 @@ function TrainForm({ sessionId, runs, disabled }: { sessionId: string; runs: Ove
   const [message, setMessage] = useState<string | null>(null)
   const [training, setTraining] = useState<TrainingInfo | null>(null)
   const revalidator = useRevalidator()
-  useEventSource(training && (training.state === 'queued' || training.state === 'running') ? livePaths.operatorStream(sessionId) : null, {
-    training: (data) => {
-      const info = data as TrainingInfo
-      if (info.jobId !== training?.jobId) return
+  // The job runs in a worker; its state is polled (a stream opened after the job ended would
+  // miss the final event).
+  useEffect(() => {
+    if (!training || (training.state !== 'queued' && training.state !== 'running')) return
+    const timer = setInterval(async () => {
+      const res = await fetch(`${livePaths.training(sessionId)}?jobId=${encodeURIComponent(training.jobId)}`, { headers: { Accept: 'application/json' } }).catch(() => null)
+      if (!res?.ok) return
+      const info = (await res.json()) as TrainingInfo
       setTraining(info)
       if (info.state === 'done' || info.state === 'failed') void revalidator.revalidate()
       if (info.state === 'failed') setMessage(`Training failed: ${info.error ?? 'no reason given'}`)
-    },
-  })
+    }, 1000)
+    return () => clearInterval(timer)
+  }, [training, sessionId, revalidator])
   if (usable.length === 0) return <p className="text-sm text-haze">Record a calibration run first; its trials train the decoder.</p>
   const busy = training?.state === 'queued' || training?.state === 'running'
   return (

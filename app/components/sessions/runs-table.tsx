@@ -25,7 +25,7 @@ export function RunsTable({ runs }: { runs: SessionOverview['runs'] }) {
       </thead>
       <tbody>
         {runs.map((r) => (
-          <tr key={r.id}>
+          <tr key={r.id} data-run-kind={r.kind} data-run-status={r.status} data-decisions={r.decisions}>
             <td className="tabular-nums">{r.index}</td>
             <td>{r.kind}</td>
             <td>
