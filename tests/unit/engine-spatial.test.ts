@@ -7,6 +7,8 @@ import { buildTrialSet, planEpochs } from '~/engine/epochs'
 import { quadForm } from '~/engine/linalg'
 import { getSpatialMethod } from '~/engine/spatial/index'
 import { simulateImagery } from '~/engine/synthetic'
+import { positionFor } from '~/engine/montage'
+import { seededNormal } from '~/engine/linalg'
 
 function corr(a: ArrayLike<number>, b: ArrayLike<number>): number {
   let ab = 0, aa = 0, bb = 0
@@ -92,5 +94,50 @@ describe('supervised variants', () => {
     const out = createOnlineDecoder(d).push(block, end)
     expect(out.ready).toBe(true)
     d.filters.forEach((w, k) => expect(Math.abs(out.bandPower[k] - Math.log(quadForm(w, set.outer[0], Cn) / set.samples[0]))).toBeLessThan(1e-9))
+  })
+})
+
+describe('fixed spatial filters from montage positions', () => {
+  // 10-10 positions from the montage module (Oostenveld & Praamstra 2001).
+  const names = ['FC5', 'FC3', 'FC1', 'C5', 'C3', 'C1', 'CP5', 'CP3', 'CP1', 'Cz', 'F3', 'P3', 'T7']
+  const positions = names.map((name) => ({ name, ...positionFor(name)! }))
+  const noise = seededNormal(12)
+  const set = createTrialSet([Float64Array.from({ length: names.length * 200 }, () => noise())], names.length, 200)
+  const mctx = { channels: names, classes: ['a', 'b'], positions }
+
+  it('CAR rows sum to zero; raw channels have identity patterns (Haufe forward model of W = I)', () => {
+    const car = getSpatialMethod('car').fit(set, [0], mctx)
+    car.filters.forEach((row) => expect(Math.abs(row.reduce((a, b) => a + b, 0))).toBeLessThan(1e-12))
+    const none = getSpatialMethod('none').fit(set, [0], mctx)
+    none.patterns.forEach((row, i) => row.forEach((v, j) => expect(v).toBeCloseTo(i === j ? 1 : 0, 9)))
+  })
+
+  it('small Laplacian of C3 uses FC3, CP3, C5, C1 (the nearest 10-10 ring), weights summing to -1', () => {
+    const lap = getSpatialMethod('laplacian-small').fit(set, [0], mctx)
+    const row = lap.filters[names.indexOf('C3')]
+    expect(row[names.indexOf('C3')]).toBe(1)
+    const used = names.filter((n, j) => n !== 'C3' && row[j] !== 0).sort()
+    expect(used).toEqual(['C1', 'C5', 'CP3', 'FC3'])
+    expect(row.reduce((a, b) => a + b, 0)).toBeCloseTo(0, 12)
+  })
+
+  it('large Laplacian of C3 uses the next ring (F3, P3, T7, Cz)', () => {
+    const lap = getSpatialMethod('laplacian-large').fit(set, [0], mctx)
+    const row = lap.filters[names.indexOf('C3')]
+    expect(names.filter((n, j) => n !== 'C3' && row[j] !== 0).sort()).toEqual(['Cz', 'F3', 'P3', 'T7'])
+  })
+
+  it('bipolar derivations pair each channel with its nearest neighbour, each pair once', () => {
+    const bip = getSpatialMethod('bipolar').fit(set, [0], mctx)
+    const pairs = bip.componentNames
+    expect(new Set(pairs.map((p) => p.split('-').sort().join('/'))).size).toBe(pairs.length)
+    bip.filters.forEach((row) => {
+      expect(row.filter((v) => v === 1)).toHaveLength(1)
+      expect(row.filter((v) => v === -1)).toHaveLength(1)
+    })
+  })
+
+  it('without positions the montage-based methods explain what they need', () => {
+    expect(() => getSpatialMethod('laplacian-small').fit(set, [0], { channels: names, classes: ['a', 'b'] })).toThrow(/positions/)
   })
 })
