@@ -111,16 +111,24 @@ describe('decoding a simulated calibration run (CSP: Ramoser et al. 2000; LDA wi
     for (const r of Object.values(one.result.csp!.patternCorrelation)) expect(Math.abs(r)).toBeGreaterThan(0.9)
   })
 
+  // The skill the participant actually showed in this run (a binomial draw around 0.7), and
+  // the share of its lapses spent on the wrong class.
+  const outcomes = lapsing.result.csp!.trialOutcomes
+  const total = Object.values(outcomes).reduce((x, y) => x + y, 0)
+  const realisedSkill = outcomes['as-cued'] / total
+  const realisedWrongShare = (outcomes['wrong-class'] ?? 0) / Math.max(1, total - outcomes['as-cued'])
+  // 120 trials: binomial standard error of an accuracy ≈ 0.04; allow two of them.
+  const TOLERANCE = 0.08
+
+  it('the participant lapses at the rate the skill sets (binomial, 3 standard errors)', () => {
+    expect(Math.abs(realisedSkill - 0.7)).toBeLessThan(3 * Math.sqrt((0.7 * 0.3) / total))
+    expect(Math.abs(realisedWrongShare - wrongShare)).toBeLessThan(3 * Math.sqrt((wrongShare * (1 - wrongShare)) / (total - outcomes['as-cued'])))
+  })
+
   it('the accuracy scikit-learn measured at skill 0.7 is the one the skill implies', () => {
     const a = one.result.csp!.cvAccuracy
     expect(a).toBeGreaterThan(0.85) // a fully attentive good performer
-    const implied = impliedAccuracy(0.7, 2, wrongShare, a)
-    // 120 trials: binomial standard error ≈ 0.04 on each accuracy; allow about two of them.
-    expect(Math.abs(lapsing.result.csp!.cvAccuracy - implied)).toBeLessThanOrEqual(0.1)
-    // The realised share of attentive trials is a binomial draw around the skill.
-    const outcomes = lapsing.result.csp!.trialOutcomes
-    const total = Object.values(outcomes).reduce((x, y) => x + y, 0)
-    expect(Math.abs(outcomes['as-cued'] / total - 0.7)).toBeLessThan(3 * Math.sqrt((0.7 * 0.3) / total))
+    expect(Math.abs(lapsing.result.csp!.cvAccuracy - impliedAccuracy(realisedSkill, 2, realisedWrongShare, a))).toBeLessThanOrEqual(TOLERANCE)
   })
 
   it("the engine's trainDecoder reaches the implied accuracy and recovers the planted patterns", () => {
@@ -128,7 +136,7 @@ describe('decoding a simulated calibration run (CSP: Ramoser et al. 2000; LDA wi
     const good = trainDecoder(one.recording, { epoch, trainedAt: '2000-01-01T00:00:00Z' })
     const weak = trainDecoder(lapsing.recording, { epoch, trainedAt: '2000-01-01T00:00:00Z' })
     expect(good.cv.accuracy).toBeGreaterThan(0.85)
-    expect(Math.abs(weak.cv.accuracy - impliedAccuracy(0.7, 2, wrongShare, good.cv.accuracy))).toBeLessThanOrEqual(0.1)
+    expect(Math.abs(weak.cv.accuracy - impliedAccuracy(realisedSkill, 2, realisedWrongShare, good.cv.accuracy))).toBeLessThanOrEqual(TOLERANCE)
     // Haufe et al. (2014) patterns of the fitted filters: the best-matching one per class.
     for (const planted of Object.values(one.truth.classPatterns)) {
       const best = Math.max(...good.patterns.map((p) => Math.abs(correlation(p, planted))))
