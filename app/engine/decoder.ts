@@ -128,7 +128,10 @@ function validateRecording(recording: Recording): void {
   if (!(recording.rateHz > 0)) throw new Error('recording has no valid sampling rate')
   const n = recording.data[0].length
   if (recording.data.some((d) => d.length !== n)) throw new Error('recording channels differ in length')
-  if (recording.cues.length === 0) throw new Error('recording has no cues to train on')
+  if (recording.cues.length === 0) {
+    const texts = [...new Set(recording.annotations.map((a) => a.text.trim()).filter(Boolean))].slice(0, 12)
+    throw new Error(`recording has no cues to train on${texts.length ? `; its annotations read: ${texts.join(', ')} (name the cue texts with --classes or --cue-labels)` : ''}`)
+  }
 }
 
 function prepare(recording: Recording, r: Resolved, methods: SpatialMethodName[]): Prepared {

@@ -32,7 +32,14 @@ export function loadRecording(file: string, cueLabels?: string[]): Recording {
   } catch (e) {
     throw new Error(`cannot read '${file}': ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`)
   }
-  return readRecording(bytes, basename(file), cueLabels ? { cueLabels } : {})
+  const recording = readRecording(bytes, basename(file), cueLabels ? { cueLabels } : {})
+  if (cueLabels && recording.cues.length === 0) {
+    // Say which cue texts the file does have, so the operator can name them.
+    const plain = readRecording(bytes, basename(file))
+    const found = [...new Set([...plain.cues.map((c) => c.label), ...plain.annotations.map((a) => a.text.trim())])].filter(Boolean).slice(0, 12)
+    throw new Error(`no cues labelled ${cueLabels.join(', ')} in '${file}'${found.length ? `; it has: ${found.join(', ')}` : ''}`)
+  }
+  return recording
 }
 
 export function decoderJson(decoder: Decoder) {
