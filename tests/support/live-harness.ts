@@ -1,0 +1,179 @@
+// The live services on an in-memory database behind a loopback HTTP server, with sessions
+// ready to stream (16-channel montage, a trained decoder, a device token), and a paced device
+// that streams like an amplifier bridge: blocks due by the wall clock, so timer jitter on a
+// busy machine never looks like a slow sender.
+import { createServer, type Server } from 'node:http'
+import { eq } from 'drizzle-orm'
+import WebSocket from 'ws'
+import { decoders, montages, participants, protocols, sessions } from '~/db/schema'
+import { trainDecoder } from '~/engine/decoder'
+import { simulateImagery } from '~/engine/synthetic'
+import { encodeBlock, PROTOCOL_VERSION } from '~/ingest/protocol'
+import { createLiveServices, type LiveServicesImpl } from '~/live/index.server'
+import type { LiveLimits } from '~/live/limits'
+import { createDeviceToken } from '~/live/tokens.server'
+import { createTestServices, type TestServices } from './services'
+
+export const RATE_HZ = 500
+export const BLOCK = 16
+
+export interface LiveHarness {
+  t: TestServices
+  live: LiveServicesImpl
+  server: Server
+  url: string
+  channels: string[]
+  protocolId: string
+  montageId: string
+  participantId: string
+  /** A planned session of the demo lab, with an active decoder and a device token. */
+  newSession(options?: { decoder?: boolean }): Promise<{ sessionId: string; token: string; tokenId: string }>
+  close(): Promise<void>
+}
+
+export async function startLiveHarness(port: number, limits: Partial<LiveLimits> = {}): Promise<LiveHarness> {
+  const t = await createTestServices()
+  const { db } = t.services
+  const live = await createLiveServices({ db, config: t.services.config, limits: { workers: 1, ...limits }, log: () => undefined })
+  t.services.live = live as never
+  const [montage] = (await db.select().from(montages).where(eq(montages.labId, t.labId))).filter((m) => m.channels.length === 16)
+  const channels = montage.channels.map((c) => c.name)
+  const [participant] = await db.select().from(participants).where(eq(participants.code, 'HS-014'))
+  // CSP + LDA on the engine's synthetic two-class recording, renamed to the montage's channels.
+  const { recording, positions } = simulateImagery({ rows: 4, cols: 4, rateHz: RATE_HZ, trialsPerClass: 10, seed: 5 })
+  recording.channels = channels
+  const model = trainDecoder(recording, { method: 'csp', pairs: 2, windowSeconds: 1, positions: positions.map((p, i) => ({ ...p, name: channels[i] })) })
+  const [protocol] = await db
+    .insert(protocols)
+    .values({ labId: t.labId, name: 'harness', classes: [...(model as unknown as { classes: string[] }).classes], trialsPerClass: 200, fixationSeconds: 1, cueSeconds: 0.5, imagerySeconds: 3, restSeconds: 1, restJitterSeconds: 0.5 })
+    .returning()
+  let version = 0
+
+  const server = createServer((_req, res) => {
+    res.statusCode = 404
+    res.end()
+  })
+  server.on('upgrade', (req, socket, head) => {
+    if ((req.url ?? '').split('?')[0] === '/ingest') live.handleUpgrade(req, socket, head)
+    else socket.destroy()
+  })
+  await new Promise<void>((resolve) => server.listen(port, '127.0.0.1', resolve))
+
+  return {
+    t,
+    live,
+    server,
+    url: `ws://127.0.0.1:${port}/ingest`,
+    channels,
+    protocolId: protocol.id,
+    montageId: montage.id,
+    participantId: participant.id,
+    async newSession(options = {}) {
+      const [session] = await db.insert(sessions).values({ labId: t.labId, participantId: participant.id, protocolId: protocol.id, montageId: montage.id }).returning()
+      if (options.decoder !== false) {
+        const [decoder] = await db
+          .insert(decoders)
+          .values({ labId: t.labId, participantId: participant.id, sessionId: session.id, version: ++version, method: 'csp', trainedOnRunIds: [], model: model as never })
+          .returning()
+        await live.activateDecoder(session.id, decoder.id, null)
+      }
+      const created = await createDeviceToken(db, { labId: t.labId, sessionId: session.id, createdBy: null, hours: 1 })
+      return { sessionId: session.id, token: created.token, tokenId: created.id }
+    },
+    async close() {
+      await live.close()
+      await new Promise<void>((resolve) => server.close(() => resolve()))
+      await t.close()
+    },
+  }
+}
+
+export interface DeviceLink {
+  ws: WebSocket
+  messages: { type: string; [k: string]: unknown }[]
+  /** Resolves with the close code and reason. */
+  closed: Promise<{ code: number; reason: string }>
+  isOpen(): boolean
+  hello(fields?: Record<string, unknown>): void
+  /** Resolves on the welcome, or rejects with the close. */
+  welcome(timeoutMs?: number): Promise<{ runId: string | null; nextSample: number }>
+}
+
+export function connect(url: string): Promise<DeviceLink> {
+  return new Promise((resolve, reject) => {
+    const ws = new WebSocket(url)
+    const messages: DeviceLink['messages'] = []
+    let open = false
+    const closed = new Promise<{ code: number; reason: string }>((r) => ws.once('close', (code, reason) => r({ code, reason: reason.toString() })))
+    ws.on('message', (data, isBinary) => {
+      if (!isBinary) messages.push(JSON.parse(data.toString()))
+    })
+    ws.on('error', () => undefined)
+    ws.once('open', () => {
+      open = true
+      resolve(link)
+    })
+    ws.once('close', () => {
+      open = false
+    })
+    ws.once('unexpected-response', () => reject(new Error('upgrade refused')))
+    const link: DeviceLink = {
+      ws,
+      messages,
+      closed,
+      isOpen: () => open && ws.readyState === WebSocket.OPEN,
+      hello(fields = {}) {
+        ws.send(JSON.stringify({ type: 'hello', protocol: PROTOCOL_VERSION, device: 'test device', units: 'uV', rateHz: RATE_HZ, ...fields }))
+      },
+      welcome(timeoutMs = 5_000) {
+        return new Promise((res, rej) => {
+          const timer = setTimeout(() => rej(new Error('no welcome in time')), timeoutMs)
+          const check = () => {
+            const w = messages.find((m) => m.type === 'welcome')
+            if (w) {
+              clearTimeout(timer)
+              ws.off('message', check)
+              res({ runId: (w.runId as string | null) ?? null, nextSample: Number(w.nextSample) })
+            }
+          }
+          ws.on('message', check)
+          check()
+          void closed.then((c) => {
+            clearTimeout(timer)
+            rej(new Error(`closed ${c.code} ${c.reason}`))
+          })
+        })
+      },
+    }
+  })
+}
+
+/** A block of plausible EEG-like values (tens of microvolts). */
+export function block(seq: number, firstSample: number, channels: number, samples = BLOCK, value?: (s: number, c: number) => number): Uint8Array {
+  const data = new Float32Array(channels * samples)
+  for (let s = 0; s < samples; s++)
+    for (let c = 0; c < channels; c++) data[s * channels + c] = value ? value(s, c) : 20 * Math.sin(2 * Math.PI * 10 * ((firstSample + s) / RATE_HZ) + c) + 5 * Math.sin(0.37 * (firstSample + s) * (c + 1))
+  return encodeBlock({ seq, firstSample, channelCount: channels, samples: data })
+}
+
+/** Streams blocks as the wall clock makes them due, until stop(). */
+export function pacedStream(link: DeviceLink, channels: number, startSample = 0, rateHz = RATE_HZ) {
+  let seq = 0
+  let sample = startSample
+  const started = performance.now()
+  const timer = setInterval(() => {
+    const due = startSample + Math.floor(((performance.now() - started) / 1000) * rateHz)
+    while (sample + BLOCK <= due && link.isOpen()) {
+      link.ws.send(block(seq++, sample, channels))
+      sample += BLOCK
+    }
+  }, 8)
+  return {
+    get sent() {
+      return seq
+    },
+    stop() {
+      clearInterval(timer)
+    },
+  }
+}
