@@ -14,7 +14,10 @@ export const summary = 'train a decoder on a recording and print its cross-valid
 const USAGE = `usage: tiller train <recording> [--method csp] [--band 8-30] [--window 0.5-2.5] [--classes left,right] [--folds 5] [--json] [--out decoder.json]
   --method NAME      none, car, bipolar, laplacian-small, laplacian-large, pca, ica, csp, rcsp, csp-ovr, fbcsp
 ${ENGINE_OPTIONS_HELP}
-  --out FILE         write the decoder JSON to FILE`
+  --out FILE         write the decoder JSON to FILE
+
+A decoder's output is a control signal for research or supervised clinical use under an
+approved protocol; it is not a diagnosis.`
 
 /** Positions for the recording's channels: from a montage CSV, else 10-20/10-10 names. */
 export function positionsForRecording(recording: Recording, montageFile?: string): ChannelPosition[] {
