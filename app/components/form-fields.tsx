@@ -84,14 +84,15 @@ export function TextAreaField({
   errors,
   hint,
   className,
+  mono = false,
   ...area
-}: Common & Omit<React.TextareaHTMLAttributes<HTMLTextAreaElement>, 'name'>) {
+}: Common & { mono?: boolean } & Omit<React.TextareaHTMLAttributes<HTMLTextAreaElement>, 'name'>) {
   return (
     <div className={className}>
       <label htmlFor={name} className="label">
         {label}
       </label>
-      <textarea id={name} name={name} className="field" aria-invalid={errors?.[name] ? true : undefined} aria-describedby={describedBy(name, errors, hint)} {...area} />
+      <textarea id={name} name={name} className={mono ? 'field font-mono text-sm' : 'field'} aria-invalid={errors?.[name] ? true : undefined} aria-describedby={describedBy(name, errors, hint)} {...area} />
       <Hint name={name} hint={hint} />
       <FieldError id={`${name}-error`} message={errors?.[name]} />
     </div>

@@ -15,6 +15,8 @@ interface Props {
   /** Shown to screen readers and as the SVG title. */
   title: string
   showLabels?: boolean
+  /** A thumbnail next to text that already says what it shows: hidden from screen readers. */
+  decorative?: boolean
   className?: string
 }
 
@@ -41,7 +43,7 @@ function Head() {
   )
 }
 
-export function ScalpSites({ channels, reference, ground, title, showLabels = true, className = 'w-full max-w-md' }: Props) {
+export function ScalpSites({ channels, reference, ground, title, showLabels = true, decorative = false, className = 'w-full max-w-md' }: Props) {
   const dense = channels.length > 40
   const dot = dense ? 0.04 : 0.05
   const font = dense ? 0.062 : 0.085
@@ -50,14 +52,18 @@ export function ScalpSites({ channels, reference, ground, title, showLabels = tr
   const names = channels.map((c) => c.name).join(', ')
   const description = `${channels.length} sites: ${names}.${reference ? ` Reference ${reference}.` : ''}${ground ? ` Ground ${ground}.` : ''}`
   return (
-    <svg viewBox={`${-EXTENT} ${-EXTENT} ${2 * EXTENT} ${2 * EXTENT}`} className={className} role="img" aria-label={`${title}. ${description}`}>
-      <title>{title}</title>
+    <svg
+      viewBox={`${-EXTENT} ${-EXTENT} ${2 * EXTENT} ${2 * EXTENT}`}
+      className={className}
+      {...(decorative ? { 'aria-hidden': true } : { role: 'img', 'aria-label': `${title}. ${description}` })}
+    >
+      {decorative ? null : <title>{title}</title>}
       <Head />
       {channels.map((c) => {
         const { cx, cy } = toSvg(c)
         return (
           <g key={c.name}>
-            <title>{c.name}</title>
+            {decorative ? null : <title>{c.name}</title>}
             <circle cx={cx} cy={cy} r={dot} className="fill-brass stroke-ink-950" strokeWidth={0.01} />
             {showLabels ? (
               <text x={cx} y={cy + dot * 1.5 + font * 0.85} textAnchor="middle" fontSize={font} className="fill-fog">

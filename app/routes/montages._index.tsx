@@ -39,7 +39,7 @@ export default function Montages({ loaderData }: Route.ComponentProps) {
           {montages.map((m) => (
             <li key={m.id}>
               <Link to={`/montages/${m.id}`} className="panel flex h-full gap-4 hover:border-brass">
-                <ScalpSites channels={m.channels} reference={m.reference} ground={m.ground} title={`Sites of ${m.name}`} showLabels={false} className="h-28 w-28 shrink-0" />
+                <ScalpSites channels={m.channels} reference={m.reference} ground={m.ground} title={`Sites of ${m.name}`} showLabels={false} decorative className="h-28 w-28 shrink-0" />
                 <div className="min-w-0">
                   <h2 className="font-bold text-brass">{m.name}</h2>
                   <dl className="mt-1 grid grid-cols-[auto_1fr] gap-x-3 text-sm">

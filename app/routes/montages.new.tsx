@@ -7,6 +7,7 @@ import { RouteError } from '~/components/route-error'
 import { ScalpLegend, ScalpSites, type ScalpSite } from '~/components/scalp-sites'
 import { MontageError, montagePreset, parseMontageCsv, PRESET_COUNTS, presetName, type PresetCount } from '~/engine/montage'
 import { parseForm } from '~/lib/forms'
+import { useHydrated } from '~/lib/use-hydrated'
 import { requireUser } from '~/server/auth.server'
 import { createMontage, montageCreateSchema, montageFormData } from '~/server/montages.server'
 
@@ -50,6 +51,7 @@ export default function NewMontage({ actionData }: Route.ComponentProps) {
   const [reference, setReference] = useState(values.reference ?? 'FCz')
   const [ground, setGround] = useState(values.ground ?? 'AFz')
   const preview = usePreview(source, preset, csv)
+  const hydrated = useHydrated()
 
   async function readFile(event: React.ChangeEvent<HTMLInputElement>) {
     const file = event.currentTarget.files?.[0]
@@ -79,28 +81,27 @@ export default function NewMontage({ actionData }: Route.ComponentProps) {
             </div>
             <FieldError id="source-error" message={errors?.source} />
           </fieldset>
-          {source === 'preset' ? (
+          <div hidden={hydrated && source !== 'preset'}>
             <SelectField name="preset" label="Preset" options={PRESET_OPTIONS} value={preset} onChange={(e) => setPreset(e.currentTarget.value)} errors={errors} />
-          ) : (
-            <div className="space-y-3">
-              <div>
-                <label htmlFor="csvFile" className="label">
-                  CSV file
-                </label>
-                <input id="csvFile" name="csvFile" type="file" accept=".csv,.txt,text/csv,text/plain" onChange={readFile} className="block text-sm text-haze file:mr-3 file:rounded-md file:border file:border-ink-600 file:bg-ink-800 file:px-3 file:py-1.5 file:text-fog" />
-              </div>
-              <TextAreaField
-                name="csv"
-                label="…or paste the lines"
-                rows={8}
-                value={csv}
-                onChange={(e) => setCsv(e.currentTarget.value)}
-                errors={errors}
-                className="font-mono"
-                hint="One channel per line: name,x,y,z (x to the right ear, y to the nose, z up; any unit) or a 10-20/10-10 name alone. A header line and # comments are skipped."
-              />
+          </div>
+          <div className="space-y-3" hidden={hydrated && source !== 'csv'}>
+            <div>
+              <label htmlFor="csvFile" className="label">
+                CSV file
+              </label>
+              <input id="csvFile" name="csvFile" type="file" accept=".csv,.txt,text/csv,text/plain" onChange={readFile} className="block text-sm text-haze file:mr-3 file:rounded-md file:border file:border-ink-600 file:bg-ink-800 file:px-3 file:py-1.5 file:text-fog" />
             </div>
-          )}
+            <TextAreaField
+              name="csv"
+              label="…or paste the lines"
+              rows={8}
+              value={csv}
+              onChange={(e) => setCsv(e.currentTarget.value)}
+              errors={errors}
+              mono
+              hint="One channel per line: name,x,y,z (x to the right ear, y to the nose, z up; any unit) or a 10-20/10-10 name alone. A header line and # comments are skipped."
+            />
+          </div>
           <div className="grid gap-5 sm:grid-cols-2">
             <TextField name="reference" label="Reference" value={reference} onChange={(e) => setReference(e.currentTarget.value)} errors={errors} hint="A site (FCz) or a place (linked earlobes)." />
             <TextField name="ground" label="Ground" value={ground} onChange={(e) => setGround(e.currentTarget.value)} errors={errors} hint="Usually AFz or Fpz." />

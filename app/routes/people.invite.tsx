@@ -6,6 +6,7 @@ import { PageHeader } from '~/components/page'
 import { RouteError } from '~/components/route-error'
 import { INVITE_ROLES } from '~/lib/choices'
 import { parseForm } from '~/lib/forms'
+import { useHydrated } from '~/lib/use-hydrated'
 import { requireUser } from '~/server/auth.server'
 import { invite, InviteError, inviteSchema, unlinkedParticipants } from '~/server/lab-people.server'
 
@@ -35,6 +36,7 @@ export default function Invite({ loaderData, actionData }: Route.ComponentProps)
   const errors = actionData?.errors
   const [role, setRole] = useState(values.role ?? 'operator')
   const busy = useNavigation().state === 'submitting'
+  const hydrated = useHydrated()
   return (
     <div>
       <PageHeader title="Invite someone" lead="They get an e-mail with a link to set their own password. The link works once, for 72 hours." />
@@ -43,7 +45,7 @@ export default function Invite({ loaderData, actionData }: Route.ComponentProps)
         <TextField name="email" label="E-mail" type="email" autoComplete="off" defaultValue={values.email ?? ''} errors={errors} />
         <TextField name="name" label="Name" defaultValue={values.name ?? ''} errors={errors} hint="For a participant, use their code, not their name." />
         <SelectField name="role" label="Role" options={INVITE_ROLES} value={role} onChange={(e) => setRole(e.currentTarget.value)} errors={errors} />
-        {role === 'participant' ? (
+        {role === 'participant' || !hydrated ? (
           loaderData.participants.length === 0 ? (
             <p className="text-sm text-brass">Every participant already has an account, or there are none yet. Add the participant first.</p>
           ) : (
@@ -53,7 +55,7 @@ export default function Invite({ loaderData, actionData }: Route.ComponentProps)
               options={[{ value: '', label: 'Choose…' }, ...loaderData.participants.map((p) => ({ value: p.id, label: `${p.code} (consent ${p.consentStatus})` }))]}
               defaultValue={values.participantId ?? ''}
               errors={errors}
-              hint="The account sees this participant’s own progress and feedback view, nothing else."
+              hint="For the participant role only: the account sees this participant’s own progress and feedback view, nothing else."
             />
           )
         ) : null}
