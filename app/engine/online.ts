@@ -41,6 +41,54 @@ interface BandBranch {
   rows: Int32Array
 }
 
+// The loops of the hot path live in small module-level functions over typed-array arguments,
+// so the JIT keeps every array and index in registers.
+
+/** Copies the block, replacing NaN and ±Infinity by 0; returns how many it replaced. */
+function sanitizeInto(samples: Float32Array, dst: Float64Array, values: number): number {
+  let invalid = 0
+  for (let i = 0; i < values; i++) {
+    const v = samples[i]
+    if (v - v === 0) dst[i] = v // v - v is 0 for finite v, NaN for NaN and ±Infinity
+    else {
+      dst[i] = 0
+      invalid++
+    }
+  }
+  return invalid
+}
+
+function copyInto(src: Float64Array, dst: Float64Array | Float32Array, values: number): void {
+  for (let i = 0; i < values; i++) dst[i] = src[i]
+}
+
+/**
+ * Adds each sample's squared component values to the ring buffer and running sums, sample by
+ * sample (the same order for any block split); once per window length the sums are recomputed
+ * from the ring, which bounds rounding drift. Returns the new ring position.
+ */
+function slideWindow(squares: Float64Array, stride: number, sampleCount: number, ring: Float64Array, sums: Float64Array, K: number, n: number, start: number): number {
+  let position = start
+  for (let s = 0; s < sampleCount; s++) {
+    for (let k = 0; k < K; k++) {
+      const sq = squares[k * stride + s]
+      const slot = k * n + position
+      sums[k] += sq - ring[slot]
+      ring[slot] = sq
+    }
+    position++
+    if (position === n) {
+      position = 0
+      for (let k = 0; k < K; k++) {
+        let total = 0
+        for (let i = k * n, end = i + n; i < end; i++) total += ring[i]
+        sums[k] = total
+      }
+    }
+  }
+  return position
+}
+
 export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
   if (decoder.version !== 1) throw new Error(`decoder version ${decoder.version} is not supported`)
   const C = decoder.channels.length
@@ -103,50 +151,18 @@ export function createOnlineDecoder(decoder: Decoder): OnlineDecoder {
     if (samples.length < sampleCount * C) throw new Error(`block holds ${samples.length} values, need ${sampleCount}×${C}`)
     ensureCapacity(sampleCount)
     // One NaN would stay in an IIR filter's state for good; a dropped value becomes 0 instead.
-    // (v - v is 0 for every finite v and NaN for NaN and ±Infinity.)
     const values = sampleCount * C
     const first = scratch[0]
-    let invalid = 0
-    for (let i = 0; i < values; i++) {
-      const v = samples[i]
-      if (v - v === 0) first[i] = v
-      else {
-        first[i] = 0
-        invalid++
-      }
-    }
-    result.invalidValues = invalid
-    for (let b = 1; b < branches.length; b++) {
-      const dst = scratch[b]
-      for (let i = 0; i < values; i++) dst[i] = first[i]
-    }
+    result.invalidValues = sanitizeInto(samples, first, values)
+    for (let b = 1; b < branches.length; b++) copyInto(first, scratch[b], values)
     for (let b = 0; b < branches.length; b++) sosFilterInto(branches[b].packed, scratch[b], scratch[b], sampleCount, branches[b].state)
-    const main = scratch[0]
-    for (let i = 0; i < sampleCount * C; i++) filteredStore[i] = main[i]
-
-    // Squared component values of every sample in the block.
+    copyInto(first, filteredStore, values)
+    // Squared component values of every sample in the block, then the window sums.
     for (let b = 0; b < branches.length; b++) {
       const br = branches[b]
       projectSquares(br.weights, br.components.length, C, scratch[b], sampleCount, squares, br.rows, capacity)
     }
-    // Sliding-window sums, sample by sample (the same order for any block split).
-    for (let s = 0; s < sampleCount; s++) {
-      for (let k = 0; k < K; k++) {
-        const sq = squares[k * capacity + s]
-        const slot = k * n + position
-        sums[k] += sq - ring[slot]
-        ring[slot] = sq
-      }
-      position++
-      if (position === n) {
-        position = 0
-        for (let k = 0; k < K; k++) {
-          let total = 0
-          for (let i = k * n, end = i + n; i < end; i++) total += ring[i]
-          sums[k] = total
-        }
-      }
-    }
+    position = slideWindow(squares, capacity, sampleCount, ring, sums, K, n, position)
     seen += sampleCount
 
     result.ready = seen >= n
