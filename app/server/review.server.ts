@@ -5,8 +5,11 @@
 import { and, asc, count, desc, eq, gte, inArray, lt, sql, type SQL } from 'drizzle-orm'
 import { z } from 'zod'
 import type { Database } from '~/db/client.server'
-import { annotations, auditEvents, decisions, decoders, montages, participants, protocols, recordingChunks, runs, sessionEvents, sessions, trials, users } from '~/db/schema'
+import { annotations, auditEvents, type MontageChannel, decisions, decoders, montages, participants, protocols, recordingChunks, runs, sessionEvents, sessions, trials, users } from '~/db/schema'
 import type { SessionUser } from '~/server/services'
+import type { ComparisonRow, Decoder } from '~/engine/decoder'
+import { positionFor } from '~/engine/montage'
+import type { Recording } from '~/engine/recording'
 import { accuracy, chanceLevel, cohenKappa, confusionMatrix, itrBitsPerMinute, itrBitsPerTrial } from '~/engine/metrics'
 
 import { SESSION_SORTS, SESSION_STATUSES, SIGNOFF_STATES } from '~/components/session-table'
@@ -609,5 +612,140 @@ export async function runFigures(db: Database, runId: string) {
     trials: trialRows,
     metrics: row.run.kind === 'feedback' ? feedbackRunMetrics(row.protocol.classes, trialRows, secondsPerTrialOf(trialRows, row.run.rateHz, row.protocol)) : null,
     latency,
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Decoder review: patterns for scalp maps, per-class spectra of its components, folds, comparison.
+
+/** Spectrum of x (one epoch) at the given frequencies: Hann-windowed periodogram, µV²/Hz. */
+export function periodogram(x: Float64Array, rateHz: number, freqs: number[]): number[] {
+  const n = x.length
+  let mean = 0
+  for (let i = 0; i < n; i++) mean += x[i]
+  mean /= n
+  const w = new Float64Array(n)
+  let wSq = 0
+  for (let i = 0; i < n; i++) {
+    w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / (n - 1))
+    wSq += w[i] * w[i]
+  }
+  return freqs.map((f) => {
+    let re = 0
+    let im = 0
+    const step = (2 * Math.PI * f) / rateHz
+    for (let i = 0; i < n; i++) {
+      const v = (x[i] - mean) * w[i]
+      re += v * Math.cos(step * i)
+      im -= v * Math.sin(step * i)
+    }
+    // One-sided density, as scipy.signal.periodogram(window='hann', scaling='density').
+    return (2 * (re * re + im * im)) / (rateHz * wSq)
+  })
+}
+
+export interface ClassSpectra {
+  component: string
+  /** mean log10 power per class at `freqs` */
+  perClass: { label: string; trials: number; log10Power: number[] }[]
+}
+
+/** Per-class mean log spectra of the decoder's first and last components over the epochs of `recording`. */
+export function componentSpectra(decoder: Decoder, recording: Recording, maxHz = 40): { freqs: number[]; spectra: ClassSpectra[] } {
+  const from = Math.round(decoder.epoch[0] * recording.rateHz)
+  const to = Math.round(decoder.epoch[1] * recording.rateHz)
+  const n = to - from
+  const df = recording.rateHz / n
+  const freqs: number[] = []
+  for (let f = df; f <= Math.min(maxHz, recording.rateHz / 2); f += df) freqs.push(Math.round(f * 1000) / 1000)
+  const index = decoder.channels.map((c) => recording.channels.indexOf(c))
+  if (index.some((i) => i < 0) || n < 8) return { freqs: [], spectra: [] }
+  const picks = decoder.filters.length > 1 ? [0, decoder.filters.length - 1] : [0]
+  const total = recording.data[0].length
+  const spectra = picks.map((k) => {
+    const w = decoder.filters[k]
+    const perClass = decoder.classes.map((label) => {
+      const sum = new Array<number>(freqs.length).fill(0)
+      let count = 0
+      for (const cue of recording.cues) {
+        if (cue.label !== label || cue.sample + to > total) continue
+        const y = new Float64Array(n)
+        for (let s = 0; s < n; s++) {
+          let v = 0
+          for (let c = 0; c < w.length; c++) v += w[c] * recording.data[index[c]][cue.sample + from + s]
+          y[s] = v
+        }
+        periodogram(y, recording.rateHz, freqs).forEach((p, i) => (sum[i] += Math.log10(Math.max(p, 1e-30))))
+        count++
+      }
+      return { label, trials: count, log10Power: sum.map((v) => (count ? v / count : NaN)) }
+    })
+    return { component: decoder.componentNames[k] ?? `component ${k + 1}`, perClass }
+  })
+  return { freqs, spectra }
+}
+
+export async function decoderReview(db: Database, labId: string, decoderId: string, loadRecording: (runId: string) => Promise<Recording>) {
+  const [row] = await db
+    .select({ decoder: decoders, participantCode: participants.code })
+    .from(decoders)
+    .innerJoin(participants, eq(participants.id, decoders.participantId))
+    .where(and(eq(decoders.id, decoderId), eq(decoders.labId, labId)))
+  if (!row) return null
+  const model = row.decoder.model as unknown as Decoder
+  // Positions from the session's montage, else the 10-10 template by name.
+  let montageChannels: MontageChannel[] = []
+  if (row.decoder.sessionId) {
+    const [m] = await db.select({ channels: montages.channels }).from(sessions).innerJoin(montages, eq(montages.id, sessions.montageId)).where(eq(sessions.id, row.decoder.sessionId))
+    montageChannels = m?.channels ?? []
+  }
+  const positions = model.channels.map((name) => {
+    const p = montageChannels.find((c) => c.name.toLowerCase() === name.toLowerCase()) ?? positionFor(name)
+    return p ? { x: p.x, y: p.y, z: p.z } : null
+  })
+  let spectra: ReturnType<typeof componentSpectra> = { freqs: [], spectra: [] }
+  let spectraError: string | null = null
+  const runId = row.decoder.trainedOnRunIds[0]
+  if (runId) {
+    try {
+      spectra = componentSpectra(model, await loadRecording(runId))
+    } catch (error) {
+      spectraError = (error as Error).message
+    }
+  }
+  const siblings = await db
+    .select({ id: decoders.id, version: decoders.version, method: decoders.method, cvAccuracy: decoders.cvAccuracy })
+    .from(decoders)
+    .where(eq(decoders.participantId, row.decoder.participantId))
+    .orderBy(asc(decoders.version))
+  return {
+    decoder: {
+      id: row.decoder.id,
+      version: row.decoder.version,
+      method: row.decoder.method,
+      sessionId: row.decoder.sessionId,
+      participantId: row.decoder.participantId,
+      participantCode: row.participantCode,
+      createdAt: row.decoder.createdAt.toISOString(),
+      trainedOnRunIds: row.decoder.trainedOnRunIds,
+    },
+    model: {
+      channels: model.channels,
+      classes: model.classes,
+      band: model.band,
+      epoch: model.epoch,
+      windowSeconds: model.windowSeconds,
+      rateHz: model.rateHz,
+      componentNames: model.componentNames,
+      componentBands: model.componentBands,
+      patterns: model.patterns,
+      cv: model.cv,
+      trialCount: model.trialCount,
+    },
+    positions,
+    comparison: (row.decoder.comparison as ComparisonRow[] | null) ?? null,
+    spectra,
+    spectraError,
+    siblings,
   }
 }
