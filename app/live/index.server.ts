@@ -136,9 +136,16 @@ export async function createLiveServices(deps: LiveDeps) {
   })
 
   const figuresTimer = setInterval(async () => {
-    for (const entry of live.values()) {
+    const now = Date.now()
+    for (const [id, entry] of live) {
       const session = await entry.catch(() => null)
-      if (session && session.operatorHub.clientCount > 0) session.operatorHub.publish('figures', session.figures(), true)
+      if (!session) continue
+      if (session.operatorHub.clientCount > 0) session.operatorHub.publish('figures', session.figures(), true)
+      if (!closing && session.isIdle(now, limits.idleSessionMs)) {
+        // Unloading frees its pipeline and stream buffers; the next use loads it again.
+        live.delete(id)
+        void session.shutdown(CloseCode.normal, 'session unloaded').catch(() => undefined)
+      }
     }
   }, 1000)
   figuresTimer.unref()

@@ -26,6 +26,10 @@ export interface LiveLimits {
   flushIntervalMs: number
   /** Events kept per stream for Last-Event-ID resume. */
   sseRingSize: number
+  /** Bytes of events kept per stream for resume (signal frames are large). */
+  sseRingBytes: number
+  /** A session with no device link, no run in progress and no viewer is unloaded after this long. */
+  idleSessionMs: number
   /** Events queued per slow client before display frames are dropped. */
   sseClientQueue: number
   /** Displayed signal rate and how often signal frames are sent. */
@@ -50,6 +54,8 @@ export const DEFAULT_LIMITS: LiveLimits = {
   pingIntervalMs: 5_000,
   flushIntervalMs: 50,
   sseRingSize: 4_096,
+  sseRingBytes: 4 * 1024 * 1024,
+  idleSessionMs: 10 * 60_000,
   sseClientQueue: 1_024,
   displayRateHz: 125,
   displayIntervalMs: 100,

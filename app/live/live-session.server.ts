@@ -21,7 +21,7 @@ import type {
 } from './events.ts'
 import type { LiveLimits } from './limits.ts'
 import type { FromWorker, PipelineSettings } from './pipeline-messages.ts'
-import type { PipelinePool } from './pipeline-pool.server.ts'
+import type { PipelineListener, PipelinePool } from './pipeline-pool.server.ts'
 import { RunState, type AdvanceResult, type CompletedTrial, type PhaseChange } from './run-state.ts'
 import { buildSchedule, type ProtocolTiming } from './schedule.ts'
 import { SseHub } from './sse-hub.server.ts'
@@ -128,13 +128,23 @@ export class LiveSession {
     private readonly ctx: Context,
     readonly setup: SessionSetup,
   ) {
-    this.operatorHub = new SseHub({ ringSize: ctx.limits.sseRingSize, clientQueue: ctx.limits.sseClientQueue })
-    this.feedbackHub = new SseHub({ ringSize: Math.min(1024, ctx.limits.sseRingSize), clientQueue: ctx.limits.sseClientQueue })
+    this.operatorHub = new SseHub({ ringSize: ctx.limits.sseRingSize, ringBytes: ctx.limits.sseRingBytes, clientQueue: ctx.limits.sseClientQueue })
+    this.feedbackHub = new SseHub({ ringSize: Math.min(1024, ctx.limits.sseRingSize), ringBytes: ctx.limits.sseRingBytes / 4, clientQueue: ctx.limits.sseClientQueue })
     this.removeFlushHook = ctx.writer.onBeforeFlush(() => this.registerAck())
   }
 
   get id(): string {
     return this.setup.id
+  }
+
+  /** Last time this session had a device link, a run in progress or a viewer (epoch ms). */
+  lastBusyAt = Date.now()
+
+  /** True when nothing uses the session: it can be unloaded (its state is all in the database). */
+  isIdle(now: number, idleMs: number): boolean {
+    const busy = this.link !== null || this.run?.active === true || this.operatorHub.clientCount > 0 || this.feedbackHub.clientCount > 0
+    if (busy) this.lastBusyAt = now
+    return !busy && now - this.lastBusyAt > idleMs
   }
 
   // ---- device link ----------------------------------------------------------------------
@@ -181,26 +191,29 @@ export class LiveSession {
     this.pipelineKey = `${link.channels.join(',')}@${link.rateHz}`
     let decoder = this.setup.decoder?.model ?? null
     if (decoder && (decoder.rateHz !== link.rateHz || decoder.channels.join(',') !== link.channels.join(','))) decoder = null
+    this.pipelineListener = {
+      onResult: (m) => this.onResult(m),
+      onDisplay: (m) => this.onDisplay(m),
+      onError: (message) => {
+        this.ctx.log('warn', 'live.pipeline-error', { sessionId: this.id, message })
+        this.event('pipeline_error', null, { message })
+      },
+      onWorkerLost: () => {
+        this.event('pipeline_lost', null, {})
+        for (const m of this.meta) this.finishTrials(m.closes)
+        this.meta = []
+        this.pipelineKey = null
+        this.link?.close(4503, 'decoding worker restarted; reconnect')
+      },
+    }
     this.ctx.pool.open(
       this.id,
       { channels: link.channels, rateHz: link.rateHz, displayBand: this.setup.band, displayRateHz: this.ctx.limits.displayRateHz, decoder, settings: this.runSettings },
-      {
-        onResult: (m) => this.onResult(m),
-        onDisplay: (m) => this.onDisplay(m),
-        onError: (message) => {
-          this.ctx.log('warn', 'live.pipeline-error', { sessionId: this.id, message })
-          this.event('pipeline_error', null, { message })
-        },
-        onWorkerLost: () => {
-          this.event('pipeline_lost', null, {})
-          for (const m of this.meta) this.finishTrials(m.closes)
-          this.meta = []
-          this.pipelineKey = null
-          this.link?.close(4503, 'decoding worker restarted; reconnect')
-        },
-      },
+      this.pipelineListener,
     )
   }
+
+  private pipelineListener: PipelineListener | undefined
 
   /** A block accepted by the ingest checks (device clock). `samples` is kept for the recording. */
   onBlock(link: LinkHandle, seq: number, firstSample: number, samples: Float32Array, sampleCount: number, receivedAt: number): void {
@@ -563,7 +576,7 @@ export class LiveSession {
       if (this.run?.active) await this.finishRun('interrupted', reason)
     })
     this.link?.close(code, reason)
-    this.ctx.pool.close(this.id)
+    if (this.pipelineListener) this.ctx.pool.close(this.id, this.pipelineListener)
     this.operatorHub.closeAll()
     this.feedbackHub.closeAll()
     this.removeFlushHook()

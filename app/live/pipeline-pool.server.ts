@@ -107,9 +107,11 @@ export class PipelinePool {
     this.placement.get(sessionId)?.worker.postMessage({ t: 'settings', sessionId, settings } satisfies ToWorker)
   }
 
-  close(sessionId: string): void {
+  /** Closes the session's pipeline; with `owner`, only if that listener still owns it. */
+  close(sessionId: string, owner?: PipelineListener): void {
     const slot = this.placement.get(sessionId)
     if (!slot) return
+    if (owner && this.listeners.get(sessionId) !== owner) return
     slot.worker.postMessage({ t: 'close', sessionId } satisfies ToWorker)
     slot.sessions.delete(sessionId)
     this.placement.delete(sessionId)

@@ -19,6 +19,8 @@ export interface HubClient {
 
 export interface HubOptions {
   ringSize: number
+  /** Upper bound of the ring's frames in bytes (UTF-16 length × 2), whatever their count. */
+  ringBytes?: number
   clientQueue: number
 }
 
@@ -32,6 +34,7 @@ export function sseFrame(id: string | null, event: string, data: string): string
 
 export class SseHub {
   private ring: HubEntry[] = []
+  private ringChars = 0
   private seq = 0
   private clients = new Set<HubClient>()
   published = 0
@@ -47,7 +50,14 @@ export class SseHub {
     const id = `${EPOCH}-${seq}`
     const entry: HubEntry = { seq, id, frame: sseFrame(id, event, JSON.stringify(payload)), droppable }
     this.ring.push(entry)
-    if (this.ring.length > this.options.ringSize) this.ring.splice(0, this.ring.length - this.options.ringSize)
+    this.ringChars += entry.frame.length
+    const maxChars = (this.options.ringBytes ?? 4 * 2 ** 20) / 2
+    let drop = 0
+    while (this.ring.length - drop > this.options.ringSize || (this.ringChars > maxChars && this.ring.length - drop > 1)) {
+      this.ringChars -= this.ring[drop].frame.length
+      drop++
+    }
+    if (drop > 0) this.ring.splice(0, drop)
     this.published++
     for (const client of this.clients) client.offer(entry)
   }

@@ -184,3 +184,16 @@ describe('SSE fan-out', () => {
     controller.abort()
   })
 })
+
+describe('wire format worked example (docs/ingest-protocol.md)', () => {
+  test('encodeBlock and decodeBlock agree byte for byte with Python struct (scripts/fixtures/ingest_block_example.py)', async () => {
+    const { encodeBlock, decodeBlock } = await import('~/ingest/protocol')
+    const example = (await import('../fixtures/live/ingest-block-example.json')).default
+    const samples = Float32Array.from(example.samples.flat())
+    const bytes = encodeBlock({ seq: example.seq, firstSample: example.firstSample, channelCount: example.channels.length, samples })
+    expect(Buffer.from(bytes).toString('hex')).toBe(example.hex)
+    const decoded = decodeBlock(new Uint8Array(Buffer.from(example.hex, 'hex')), 2)
+    expect({ seq: decoded.seq, firstSample: decoded.firstSample, sampleCount: decoded.sampleCount }).toEqual({ seq: 7, firstSample: 1000, sampleCount: 2 })
+    expect(Array.from(decoded.samples)).toEqual(example.samples.flat())
+  })
+})
