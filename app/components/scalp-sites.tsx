@@ -75,13 +75,13 @@ export function ScalpSites({ channels, reference, ground, title, showLabels = tr
       })}
       {refPos ? (
         <g>
-          <title>Reference: {reference}</title>
+          <title>{`Reference: ${reference}`}</title>
           <rect x={toSvg(refPos).cx - dot * 1.45} y={toSvg(refPos).cy - dot * 1.45} width={dot * 2.9} height={dot * 2.9} className="fill-none stroke-sky" strokeWidth={0.016} />
         </g>
       ) : null}
       {gndPos ? (
         <g>
-          <title>Ground: {ground}</title>
+          <title>{`Ground: ${ground}`}</title>
           <path
             d={`M ${toSvg(gndPos).cx} ${toSvg(gndPos).cy - dot * 1.8} l ${dot * 1.8} ${dot * 1.8} l ${-dot * 1.8} ${dot * 1.8} l ${-dot * 1.8} ${-dot * 1.8} z`}
             className="fill-none stroke-sea"
