@@ -74,9 +74,9 @@ test('an operator runs a complete session with the simulator; the participant fo
   // --- prepare -------------------------------------------------------------------------
   const operator = await signedIn(browser, 'operator')
   await operator.goto('/sessions/new')
-  await operator.getByLabel('Participant').selectOption({ label: 'HS-014 · consent given' })
-  await operator.getByLabel('Montage').selectOption({ label: '10-10 (64) · 64 channels · ref FCz' })
-  await operator.getByLabel('Protocol').selectOption({ label: protocolName })
+  await operator.getByLabel('Participant', { exact: true }).selectOption({ label: 'HS-014 · consent given' })
+  await operator.getByLabel('Montage', { exact: true }).selectOption({ label: '10-10 (64) · 64 channels · ref FCz' })
+  await operator.getByLabel('Protocol', { exact: true }).selectOption({ label: protocolName })
   await operator.getByLabel(/Notes/).fill('End-to-end rehearsal with the bench simulator.')
   await operator.getByLabel(/approved protocol/).check()
   await operator.getByRole('button', { name: 'Prepare session' }).click()

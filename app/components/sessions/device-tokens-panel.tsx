@@ -1,6 +1,6 @@
 // Device tokens of a session: create one (the secret is shown once, here, and never again),
 // see which are active, revoke them.
-import { useFetcher } from 'react-router'
+import { useActionData, useFetcher } from 'react-router'
 import type { SessionOverview } from '~/server/sessions.server'
 import { StatusBadge } from '~/components/console/status-badge'
 import { CopyField } from '~/components/sessions/copy-field'
@@ -10,7 +10,9 @@ type Token = SessionOverview['deviceTokens'][number]
 export function DeviceTokensPanel({ tokens, disabled }: { tokens: Token[]; disabled: boolean }) {
   const create = useFetcher<{ created?: { token: string; prefix: string; expiresAt: string }; error?: string }>()
   const revoke = useFetcher()
-  const created = create.data?.created
+  // Before the page has hydrated the form posts as a document; its answer arrives as action data.
+  const documentAnswer = useActionData() as { created?: { token: string; prefix: string; expiresAt: string }; error?: string } | undefined
+  const created = create.data?.created ?? documentAnswer?.created
   return (
     <section aria-labelledby="tokens-h" className="panel">
       <h2 id="tokens-h" className="font-bold">
@@ -34,9 +36,9 @@ export function DeviceTokensPanel({ tokens, disabled }: { tokens: Token[]; disab
           Create token
         </button>
       </create.Form>
-      {create.data?.error ? (
+      {(create.data?.error ?? documentAnswer?.error) ? (
         <p role="alert" className="mt-2 text-sm text-rust">
-          {create.data.error}
+          {create.data?.error ?? documentAnswer?.error}
         </p>
       ) : null}
       {created ? (

@@ -1,11 +1,13 @@
 // The participant's feedback link: a URL with a secret token, for a second screen that is not
 // signed in. Making a new one invalidates the previous link.
-import { useFetcher } from 'react-router'
+import { useActionData, useFetcher } from 'react-router'
 import { CopyField } from '~/components/sessions/copy-field'
 
 export function FeedbackLinkPanel({ sessionId, hasLink, disabled }: { sessionId: string; hasLink: boolean; disabled: boolean }) {
   const fetcher = useFetcher<{ feedbackUrl?: string; revoked?: boolean }>()
-  const url = fetcher.data?.feedbackUrl
+  // Before the page has hydrated the form posts as a document; its answer arrives as action data.
+  const documentAnswer = useActionData() as { feedbackUrl?: string } | undefined
+  const url = fetcher.data?.feedbackUrl ?? documentAnswer?.feedbackUrl
   return (
     <section aria-labelledby="feedback-link-h" className="panel">
       <h2 id="feedback-link-h" className="font-bold">
