@@ -14,32 +14,7 @@ import { log, setLogLevel } from './app/server/log.server.ts'
 import { createMailService } from './app/server/mail.server.ts'
 import { isCrossSiteWrite, securityHeaders } from './app/server/http-security.server.ts'
 import type { Services } from './app/server/services.ts'
-
-interface LiveRuntime {
-  handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): void
-  close(): Promise<void>
-}
-
-async function startLive(db: Services['db'], config: Services['config']): Promise<LiveRuntime & Services['live']> {
-  const livePath = new URL('./app/live/index.server.ts', import.meta.url)
-  if (!existsSync(livePath)) return notReadyIngest()
-  const { createLiveServices } = await import(livePath.href)
-  return (await createLiveServices({ db, config })) as LiveRuntime & Services['live']
-}
-
-/** Until live decoding is installed, /ingest answers every device with a clear close. */
-async function notReadyIngest(): Promise<LiveRuntime & Services['live']> {
-  const { WebSocketServer } = await import('ws')
-  const wss = new WebSocketServer({ noServer: true })
-  return {
-    handleUpgrade(req, socket, head) {
-      wss.handleUpgrade(req, socket, head, (ws) => ws.close(4503, 'decoding is not available on this server yet'))
-    },
-    async close() {
-      wss.close()
-    },
-  }
-}
+import { createLiveServices } from './app/live/index.server.ts'
 
 async function main() {
   let config
@@ -66,7 +41,7 @@ async function main() {
   const mail = await createMailService(config, database.db)
   if (mail.fakeSmtpPort) log('info', 'mail.local-outbox', { port: mail.fakeSmtpPort, message: 'SMTP_URL not set: e-mail goes to the outbox page' })
 
-  const live = await startLive(database.db, config)
+  const live = await createLiveServices({ db: database.db, config })
 
   const services: Services = { config, db: database.db, dbKind: database.kind, mail: mail.mailer, live }
 

@@ -36,7 +36,8 @@ export async function createTestServices(location = 'memory://'): Promise<TestSe
     },
   }
   const config = loadConfig({ NODE_ENV: 'test', SESSION_SECRET: 'test-secret-test-secret-test-secret-42', PUBLIC_URL: 'http://tiller.test' })
-  const services: Services = { config, db: handle.db, dbKind: handle.kind, mail, live: {} }
+  // Live services (workers, ingest) are started only by the tests that need them.
+  const services: Services = { config, db: handle.db, dbKind: handle.kind, mail, live: {} as Services['live'] }
   return { handle, services, context: { services, cspNonce: '' }, sent, labId, close: () => handle.close() }
 }
 
