@@ -104,7 +104,7 @@ export function ProtocolForm({
   const summary = runMinutes(live)
   return (
     <Form method="post" className="panel max-w-3xl" noValidate onChange={onChange}>
-      <fieldset disabled={readOnly} className="space-y-6">
+      <fieldset disabled={readOnly} className={readOnly ? 'space-y-6 [&_.field]:cursor-default [&_.field]:border-ink-800 [&_.field]:bg-ink-900' : 'space-y-6'}>
         <FormError errors={errors} />
         <TextField name="name" label="Name" defaultValue={values.name} errors={errors} placeholder="e.g. Left hand vs right hand" />
         <fieldset aria-describedby={errors?.classes ? 'classes-error' : undefined}>

@@ -38,7 +38,7 @@ export default function Protocol({ loaderData, actionData }: Route.ComponentProp
     ? `Ran in ${p.sessions} session(s): its settings stay fixed so their records stay true. Changes are saved as a new protocol.`
     : canManage
       ? 'Not used by any session yet; changes apply in place.'
-      : 'Supervisors manage protocols.'
+      : 'Read only: supervisors manage protocols.'
   return (
     <div>
       <PageHeader title={p.name} lead={lead} />
