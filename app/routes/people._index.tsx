@@ -17,7 +17,8 @@ export async function loader({ request, context }: Route.LoaderArgs) {
 export async function action({ request, context }: Route.ActionArgs) {
   const user = await requireUser(request, context, { roles: ['supervisor'] })
   const form = parseForm(personStatusSchema, await request.formData())
-  if (!form.ok) return { errors: form.errors, done: null }
+  // Hidden fields only: any problem is a tampered or stale form, reported above the table.
+  if (!form.ok) return { errors: { _form: Object.values(form.errors).flat() as string[] }, done: null }
   try {
     const target = await setPersonActive(context.services.db, user, form.data.userId, form.data.intent === 'reactivate')
     return { errors: undefined, done: `${target.name} is ${form.data.intent === 'reactivate' ? 'active again' : 'deactivated; their API tokens are revoked'}.` }
