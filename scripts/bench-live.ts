@@ -14,6 +14,7 @@
 import { spawn, type ChildProcess } from 'node:child_process'
 import { createServer, request as httpRequest } from 'node:http'
 import { loadavg } from 'node:os'
+import { performance } from 'node:perf_hooks'
 import { fileURLToPath } from 'node:url'
 import WebSocket from 'ws'
 import { encodeBlock } from '../app/ingest/protocol.ts'
@@ -121,9 +122,11 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
   // Latency figures leave out the first second of the runs (16 run starts and the devices' catch-up).
   const WARM_UP_MS = 1000
   let measureFromMs = Date.now()
+  let eluStart = performance.eventLoopUtilization()
   let cpuStart = process.cpuUsage()
   let wallStart = performance.now()
   let rssStart = process.memoryUsage().rss
+  let heapStart = process.memoryUsage().heapUsed
 
   const server = createServer(async (req, res) => {
     const url = new URL(req.url ?? '/', 'http://localhost')
@@ -135,10 +138,12 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
     if (url.pathname === '/start') {
       for (const s of setup) await live.startRun(s.sessionId, { kind: 'feedback' }, null)
       cpuStart = process.cpuUsage()
+      eluStart = performance.eventLoopUtilization()
       loopDelay.reset()
       wallStart = performance.now()
       measureFromMs = Date.now() + WARM_UP_MS
       rssStart = process.memoryUsage().rss
+      heapStart = process.memoryUsage().heapUsed
       return send({ ok: true })
     }
     if (url.pathname === '/heavy') {
@@ -150,6 +155,7 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
       return send({ ms: performance.now() - started })
     }
     if (url.pathname === '/stats') {
+      const elu = performance.eventLoopUtilization(eluStart)
       for (const s of setup) await live.stopRun(s.sessionId, null).catch(() => undefined)
       await live.flush()
       const cpu = process.cpuUsage(cpuStart)
@@ -176,8 +182,11 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
         p99Ms: row.p99 / 1000,
         maxMs: row.max / 1000,
         cpuPercentOfOneCore: ((cpu.user + cpu.system) / 1000 / wallMs) * 100,
+        mainThreadBusyPercent: elu.utilization * 100,
         rssMbStart: rssStart / 2 ** 20,
         rssMbEnd: process.memoryUsage().rss / 2 ** 20,
+        heapMbStart: heapStart / 2 ** 20,
+        heapMbEnd: process.memoryUsage().heapUsed / 2 ** 20,
         writer: live.stats().writer,
         workers: live.stats().workers,
       })
@@ -247,13 +256,18 @@ interface RunFigures {
   heavy_queries: number
   heavy_query_ms_median: number | null
   cpu_percent_of_one_core: number
+  main_thread_busy_percent: number
   rss_mb_start: number
   rss_mb_end: number
+  /** JavaScript heap of the server; rss also grows by the recording kept in the in-memory database (~2 MB/s at 16 devices). */
+  heap_mb_start: number
+  heap_mb_end: number
   max_flush_ms: number
 }
 
 async function runOnce(devices: number, seconds: number, heavy: boolean, port: number, dbMode: 'main' | 'thread', sender: Args['sender']): Promise<RunFigures> {
-  const child: ChildProcess = spawn(process.execPath, [...process.execArgv, fileURLToPath(import.meta.url), '--serve', '--port', String(port), '--devices', String(devices), '--db', dbMode], {
+  const profile = process.env.BENCH_CPU_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_CPU_PROFILE}`] : []
+  const child: ChildProcess = spawn(process.execPath, [...profile, ...process.execArgv, fileURLToPath(import.meta.url), '--serve', '--port', String(port), '--devices', String(devices), '--db', dbMode], {
     stdio: ['ignore', 'inherit', 'inherit', 'ipc'],
   })
   const killTimer = setTimeout(() => child.kill('SIGKILL'), (seconds + 120) * 1000)
@@ -374,8 +388,11 @@ async function runOnce(devices: number, seconds: number, heavy: boolean, port: n
       p99Ms: number
       maxMs: number
       cpuPercentOfOneCore: number
+      mainThreadBusyPercent: number
       rssMbStart: number
       rssMbEnd: number
+      heapMbStart: number
+      heapMbEnd: number
       writer: { maxFlushMs: number }
     }>(port, '/stats')
     for (const link of links) link.ws.close(1000, 'bench done')
@@ -400,8 +417,11 @@ async function runOnce(devices: number, seconds: number, heavy: boolean, port: n
       heavy_queries: heavyCount,
       heavy_query_ms_median: roundOrNull(q(heavyMs, 0.5)),
       cpu_percent_of_one_core: round(stats.cpuPercentOfOneCore),
+      main_thread_busy_percent: round(stats.mainThreadBusyPercent),
       rss_mb_start: round(stats.rssMbStart),
       rss_mb_end: round(stats.rssMbEnd),
+      heap_mb_start: round(stats.heapMbStart),
+      heap_mb_end: round(stats.heapMbEnd),
       max_flush_ms: round(stats.writer.maxFlushMs),
     }
   } finally {
@@ -446,7 +466,7 @@ async function main() {
         console.log(
           `db ${r.database_thread.padEnd(6)} devices ${String(r.devices).padStart(2)}  heavy query ${r.heavy_query ? 'on ' : 'off'}  latency p50 ${r.p50_ms.toFixed(2)} ms  p99 ${r.p99_ms.toFixed(2)} ms  max ${r.max_ms.toFixed(1)} ms` +
             `  ${r.e2e_p50_ms === null ? '' : `(end to end p50 ${r.e2e_p50_ms.toFixed(2)} p99 ${r.e2e_p99_ms?.toFixed(2)} ms)`}  decisions made ${r.decisions_made} logged ${r.decisions_logged}` +
-            `  cpu ${r.cpu_percent_of_one_core.toFixed(0)} % of a core  rss ${r.rss_mb_start.toFixed(0)} -> ${r.rss_mb_end.toFixed(0)} MB` +
+            `  cpu ${r.cpu_percent_of_one_core.toFixed(0)} % of a core (main thread busy ${r.main_thread_busy_percent.toFixed(0)} %)  rss ${r.rss_mb_start.toFixed(0)} -> ${r.rss_mb_end.toFixed(0)} MB, heap ${r.heap_mb_start.toFixed(0)} -> ${r.heap_mb_end.toFixed(0)} MB` +
             (r.heavy_query ? `  heavy queries ${r.heavy_queries} (median ${r.heavy_query_ms_median?.toFixed(0)} ms)` : '') + `  load ${r.load_average_1min}`,
         )
       }

@@ -19,7 +19,7 @@ import { LiveError, LiveSession, type SessionSetup, type StartRunOptions } from 
 import { PipelinePool } from './pipeline-pool.server.ts'
 import { hubEventStream } from './sse-response.server.ts'
 import * as tokens from './tokens.server.ts'
-import { TrainingError, TrainingJobs } from './training.server.ts'
+import { TrainingError, TrainingJobs, trainableRuns } from './training.server.ts'
 
 export { LiveError } from './live-session.server.ts'
 export { TrainingError } from './training.server.ts'
@@ -272,6 +272,11 @@ export async function createLiveServices(deps: LiveDeps) {
       })
       await auditAction(user, 'decoder.train', job.jobId, { sessionId, runIds: input.runIds, method: input.method })
       return job
+    },
+    /** Finished recorded runs of the session's participant, for the training form. */
+    async trainableRuns(sessionId: string) {
+      const session = await requireSession(sessionId)
+      return trainableRuns(db, session.setup.participantId, session.setup.labId)
     },
     trainingJob(jobId: string): TrainingInfo | undefined {
       return training.get(jobId)

@@ -301,9 +301,7 @@ export class LiveSession {
   }
 
   private onDisplay(m: Extract<FromWorker, { t: 'display' }>): void {
-    if (m.raw.length > 0 && m.raw[0].length > 0) {
-      this.operatorHub.publish('signal', { firstSample: m.firstSample, displayRateHz: m.displayRateHz, raw: m.raw, filtered: m.filtered }, true)
-    }
+    if (m.signalJson) this.operatorHub.publishJson('signal', m.signalJson, true)
     if (m.bandPower) this.operatorHub.publish('bandpower', m.bandPower, true)
     if (m.quality) {
       const channels = this.setup.montage.map((name, i) => {

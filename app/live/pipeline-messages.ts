@@ -59,10 +59,8 @@ export type FromWorker =
   | {
       t: 'display'
       sessionId: string
-      firstSample: number
-      displayRateHz: number
-      raw: number[][]
-      filtered: number[][] | null
+      /** The SignalEvent payload, serialised in the worker so the main thread only forwards it; null if no new samples. */
+      signalJson: string | null
       bandPower: { sample: number; components: string[]; values: number[] } | null
       quality: { rmsUv: number[] } | null
     }

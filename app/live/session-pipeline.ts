@@ -160,13 +160,19 @@ export class SessionPipeline {
   /** The display frame gathered since the last call, or null if there is nothing new. */
   takeDisplay(): DisplayMessage | null {
     if (this.rawPoints[0].length === 0 && !this.lastQuality) return null
+    const signal =
+      this.rawPoints[0].length > 0
+        ? JSON.stringify({
+            firstSample: this.displayFirstSample,
+            displayRateHz: this.displayRateHz,
+            raw: this.rawPoints,
+            filtered: this.online || this.displayPacked ? this.filteredPoints : null,
+          })
+        : null
     const msg: DisplayMessage = {
       t: 'display',
       sessionId: this.sessionId,
-      firstSample: this.displayFirstSample,
-      displayRateHz: this.displayRateHz,
-      raw: this.rawPoints,
-      filtered: this.online || this.displayPacked ? this.filteredPoints : null,
+      signalJson: signal,
       bandPower: this.lastBandPower && this.online ? { ...this.lastBandPower, components: this.online.decoder.componentNames } : null,
       quality: this.lastQuality ? { rmsUv: this.lastQuality } : null,
     }

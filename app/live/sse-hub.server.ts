@@ -46,9 +46,14 @@ export class SseHub {
   }
 
   publish(event: string, payload: unknown, droppable = false): void {
+    this.publishJson(event, JSON.stringify(payload), droppable)
+  }
+
+  /** Publishes a payload already serialised (by a worker) as JSON without newlines. */
+  publishJson(event: string, json: string, droppable = false): void {
     const seq = ++this.seq
     const id = `${EPOCH}-${seq}`
-    const entry: HubEntry = { seq, id, frame: sseFrame(id, event, JSON.stringify(payload)), droppable }
+    const entry: HubEntry = { seq, id, frame: sseFrame(id, event, json), droppable }
     this.ring.push(entry)
     this.ringChars += entry.frame.length
     const maxChars = (this.options.ringBytes ?? 4 * 2 ** 20) / 2

@@ -165,11 +165,23 @@ export class TrainingJobs {
   }
 }
 
-/** Runs a session may train on: its own and earlier sessions' of the same participant, recorded live or uploaded. */
+/** Runs a decoder may be trained on: finished recorded runs of the participant, in any of their sessions, newest first. */
 export async function trainableRuns(db: Database, participantId: string, labId: string) {
   return db
-    .select({ id: runs.id, sessionId: runs.sessionId, index: runs.index, kind: runs.kind, status: runs.status, sampleCount: runs.sampleCount })
+    .select({
+      id: runs.id,
+      sessionId: runs.sessionId,
+      sessionStartedAt: sessions.startedAt,
+      index: runs.index,
+      kind: runs.kind,
+      status: runs.status,
+      source: runs.source,
+      sampleCount: runs.sampleCount,
+      rateHz: runs.rateHz,
+      startedAt: runs.startedAt,
+    })
     .from(runs)
     .innerJoin(sessions, eq(sessions.id, runs.sessionId))
-    .where(and(eq(sessions.participantId, participantId), eq(sessions.labId, labId)))
+    .where(and(eq(sessions.participantId, participantId), eq(sessions.labId, labId), inArray(runs.status, ['completed', 'stopped', 'interrupted']), sql`${runs.sampleCount} > 0`))
+    .orderBy(sql`${runs.startedAt} desc nulls last`)
 }

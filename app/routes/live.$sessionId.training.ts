@@ -1,7 +1,7 @@
 // POST /live/:sessionId/training — trains a decoder on recorded runs (runIds, repeated field)
 // with an optional spatial method (default: the best of the comparison). Answers at once with
 // the job (TrainingInfo); progress and the result come as `training` events on the operator
-// stream. GET ?jobId= returns a job's state.
+// stream. GET ?jobId= returns a job's state; GET without it lists the runs one may train on.
 import type { ActionFunctionArgs, LoaderFunctionArgs } from 'react-router'
 import { z } from 'zod'
 import { SPATIAL_METHODS } from '~/engine/spatial/types'
@@ -15,8 +15,9 @@ const trainSchema = z.object({
 
 export async function loader({ request, context, params }: LoaderFunctionArgs) {
   const user = await requireUser(request, context, { roles: LIVE_CONTROL_ROLES, api: true })
-  await requireSessionAccess(context, user, params.sessionId!)
-  const jobId = new URL(request.url).searchParams.get('jobId') ?? ''
+  const session = await requireSessionAccess(context, user, params.sessionId!)
+  const jobId = new URL(request.url).searchParams.get('jobId')
+  if (!jobId) return answer(async () => ({ runs: await context.services.live.trainableRuns(session.id) }))
   const job = context.services.live.trainingJob(jobId)
   if (!job) return Response.json({ ok: false, message: 'no such training job' }, { status: 404 })
   return Response.json(job)

@@ -129,6 +129,9 @@ describe('calibration run', () => {
   }, 60_000)
 
   test('training on the run (in a worker) stores a decoder with its method comparison', async () => {
+    const listed = (await trainingRoute.loader({ request: request(`/live/${s.sessionId}/training`, { cookie: operatorCookie }), context: h.t.context, params: { sessionId: s.sessionId } } as never)) as Response
+    const { runs: trainable } = (await listed.json()) as { runs: { id: string; kind: string }[] }
+    expect(trainable.map((r) => r.id)).toContain(calibrationRunId)
     const r = await post(trainingRoute, `/live/${s.sessionId}/training`, { runIds: [calibrationRunId], method: 'csp' })
     expect(r.status).toBe(200)
     const done = await h.live.waitForTraining(String(r.body.jobId), 60_000)
