@@ -12,9 +12,30 @@ import { openDatabase } from './app/db/client.server.ts'
 import { ConfigError, loadConfig } from './app/server/config.server.ts'
 import { log, setLogLevel } from './app/server/log.server.ts'
 import { createMailService } from './app/server/mail.server.ts'
-import { isCrossSiteWrite, securityHeaders } from './app/server/http-security.server.ts'
+import { isCrossSiteWrite, securityHeaders, setTrustedHeader } from './app/server/http-security.server.ts'
 import type { Services } from './app/server/services.ts'
 import { createLiveServices } from './app/live/index.server.ts'
+
+const NONCE_HEADER = 'x-tiller-csp-nonce'
+const CLIENT_IP_HEADER = 'x-tiller-client-ip'
+
+/**
+ * Passes per-request facts (the CSP nonce, the socket's address) to the React Router handler.
+ * The handler builds its Fetch Request from req.rawHeaders, so they go there; any copy a
+ * client sent is removed first, so a client can never set them itself.
+ */
+function stampInternalHeaders(req: IncomingMessage, values: Record<string, string>) {
+  const names = new Set(Object.keys(values))
+  const kept: string[] = []
+  for (let i = 0; i < req.rawHeaders.length; i += 2) {
+    if (!names.has(req.rawHeaders[i].toLowerCase())) kept.push(req.rawHeaders[i], req.rawHeaders[i + 1])
+  }
+  for (const [name, value] of Object.entries(values)) {
+    kept.push(name, value)
+    req.headers[name] = value
+  }
+  req.rawHeaders.splice(0, req.rawHeaders.length, ...kept)
+}
 
 async function main() {
   let config
@@ -66,7 +87,7 @@ async function main() {
   const handleRequest = createRequestListener({
     build,
     mode: config.production ? 'production' : 'development',
-    getLoadContext: (req) => ({ services, cspNonce: (req as unknown as { cspNonce?: string }).cspNonce ?? '' }) as never,
+    getLoadContext: (request) => ({ services, cspNonce: request.headers.get(NONCE_HEADER) ?? '' }) as never,
   })
 
   const assets = config.production
@@ -78,10 +99,8 @@ async function main() {
     : null
 
   server.on('request', (req: IncomingMessage, res: ServerResponse) => {
-    // The handler sees the socket's address only through this header; a client cannot set it.
-    req.headers['x-tiller-client-ip'] = req.socket.remoteAddress ?? ''
     const nonce = randomBytes(16).toString('base64')
-    ;(req as unknown as { cspNonce: string }).cspNonce = nonce
+    stampInternalHeaders(req, { [NONCE_HEADER]: nonce, [CLIENT_IP_HEADER]: req.socket.remoteAddress ?? '' })
     for (const [name, value] of Object.entries(securityHeaders({ production: config.production, nonce }))) res.setHeader(name, value)
 
     if (isCrossSiteWrite(req, config)) {

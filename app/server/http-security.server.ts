@@ -8,6 +8,22 @@ import type { Config } from '~/server/config.server'
 
 const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS'])
 
+/**
+ * Sets a request header that only the server may set (the client address, the CSP nonce),
+ * dropping any copy the client sent. React Router's Node adapter builds the Fetch Request from
+ * `req.rawHeaders`, so both `rawHeaders` and `headers` are rewritten; setting `req.headers`
+ * alone would let a client-sent header through and lose ours.
+ */
+export function setTrustedHeader(req: IncomingMessage, name: string, value: string): void {
+  const lower = name.toLowerCase()
+  const raw: string[] = []
+  for (let i = 0; i + 1 < req.rawHeaders.length; i += 2) if (req.rawHeaders[i].toLowerCase() !== lower) raw.push(req.rawHeaders[i], req.rawHeaders[i + 1])
+  raw.push(lower, value)
+  req.rawHeaders.length = 0
+  req.rawHeaders.push(...raw)
+  req.headers[lower] = value
+}
+
 export function isCrossSiteWrite(req: IncomingMessage, config: Pick<Config, 'publicUrl'>): boolean {
   if (SAFE_METHODS.has(req.method ?? 'GET')) return false
   const fetchSite = req.headers['sec-fetch-site']

@@ -80,6 +80,18 @@ async function waitForHealth(url: string, proc: ChildProcess, timeoutMs: number,
 }
 
 export async function startServer(options: StartOptions): Promise<ServerProcess> {
+  try {
+    return await startServerOnce(options)
+  } catch (error) {
+    // Another process may be rebuilding build/ at this moment (npm test and the e2e step both
+    // build): wait for a complete build and try once more.
+    if (!/No production build|Cannot find module|ERR_MODULE_NOT_FOUND/.test(String(error))) throw error
+    await new Promise((r) => setTimeout(r, 3_000))
+    return startServerOnce({ ...options, fresh: false })
+  }
+}
+
+async function startServerOnce(options: StartOptions): Promise<ServerProcess> {
   const { port } = options
   if (port < 4600 || port > 4699) throw new Error(`port ${port} is outside this suite's range 4600-4699`)
   const dataDir = resolve(ROOT, options.dataDir)
