@@ -3,7 +3,7 @@
 // both demo participants and a developer API token in each lab.
 import { eq } from 'drizzle-orm'
 import type { Database } from '~/db/client.server'
-import { apiTokens, labs, montages, participants, protocols, sessions, users } from '~/db/schema'
+import { apiTokens, decoders, labs, montages, participants, protocols, runs, sessions, users } from '~/db/schema'
 import { montagePreset, presetName } from '~/engine/montage'
 import { DEMO_ACCOUNTS } from '~/server/demo.server'
 import { hashToken, newToken } from '~/server/passwords.server'
@@ -21,6 +21,9 @@ export interface LabFixture {
   /** A session of the linked participant, and one of the other participant. */
   sessionId: string
   otherSessionId: string
+  /** A finished calibration run of the first session, and a decoder trained on it. */
+  runId: string
+  decoderId: string
   /** Bearer API tokens (plain text) per user role. */
   apiTokens: Record<Role, string>
   /** Every id and code of this lab, to check that nothing of it leaks to the other lab. */
@@ -38,6 +41,18 @@ async function tokenFor(db: Database, labId: string, userId: string): Promise<st
 async function sessionFor(db: Database, labId: string, participantId: string, montageId: string, protocolId: string, operatorId: string) {
   const [row] = await db.insert(sessions).values({ labId, participantId, montageId, protocolId, operatorId, notes: 'access test' }).returning({ id: sessions.id })
   return row.id
+}
+
+async function runAndDecoder(db: Database, labId: string, participantId: string, sessionId: string) {
+  const [run] = await db
+    .insert(runs)
+    .values({ sessionId, kind: 'calibration', index: 1, status: 'completed', rateHz: 500, channels: ['C3', 'Cz', 'C4'], startedAt: new Date(), endedAt: new Date() })
+    .returning({ id: runs.id })
+  const [decoder] = await db
+    .insert(decoders)
+    .values({ labId, participantId, sessionId, version: 1, method: 'csp', trainedOnRunIds: [run.id], model: { classes: ['left', 'right'], channels: ['C3', 'Cz', 'C4'] } })
+    .returning({ id: decoders.id })
+  return { runId: run.id, decoderId: decoder.id }
 }
 
 async function completeTokens(db: Database, labId: string, userIds: Record<Role, string>) {
@@ -58,9 +73,12 @@ export async function demoLabFixture(db: Database, labId: string): Promise<LabFi
   const [protocol] = await db.select().from(protocols).where(eq(protocols.labId, labId))
   const sessionId = await sessionFor(db, labId, linked.id, montage.id, protocol.id, userIds.operator)
   const otherSessionId = await sessionFor(db, labId, other.id, montage.id, protocol.id, userIds.operator)
+  const { runId, decoderId } = await runAndDecoder(db, labId, linked.id, sessionId)
   return {
     labId,
     userIds,
+    runId,
+    decoderId,
     participantId: linked.id,
     otherParticipantId: other.id,
     montageId: montage.id,
@@ -68,7 +86,7 @@ export async function demoLabFixture(db: Database, labId: string): Promise<LabFi
     sessionId,
     otherSessionId,
     apiTokens: await completeTokens(db, labId, userIds),
-    secrets: [linked.id, other.id, montage.id, protocol.id, sessionId, otherSessionId, 'HS-014', 'HS-022', ...Object.values(userIds)],
+    secrets: [linked.id, other.id, montage.id, protocol.id, sessionId, otherSessionId, runId, decoderId, 'HS-014', 'HS-022', ...Object.values(userIds)],
   }
 }
 
@@ -100,9 +118,12 @@ export async function createSecondLab(db: Database): Promise<LabFixture> {
   }
   const sessionId = await sessionFor(db, lab.id, p.id, montage.id, protocol.id, userIds.operator)
   const otherSessionId = await sessionFor(db, lab.id, q.id, montage.id, protocol.id, userIds.operator)
+  const { runId, decoderId } = await runAndDecoder(db, lab.id, p.id, sessionId)
   return {
     labId: lab.id,
     userIds,
+    runId,
+    decoderId,
     participantId: p.id,
     otherParticipantId: q.id,
     montageId: montage.id,
@@ -110,6 +131,6 @@ export async function createSecondLab(db: Database): Promise<LabFixture> {
     sessionId,
     otherSessionId,
     apiTokens: await completeTokens(db, lab.id, userIds),
-    secrets: [p.id, q.id, montage.id, protocol.id, sessionId, otherSessionId, 'OT-001', 'OT-002', ...Object.values(userIds)],
+    secrets: [p.id, q.id, montage.id, protocol.id, sessionId, otherSessionId, runId, decoderId, 'OT-001', 'OT-002', ...Object.values(userIds)],
   }
 }

@@ -36,6 +36,8 @@ export interface Access {
 }
 
 export interface RouteAccess {
+  /** Values for URL params that are not plain object ids: '{decoderId}.json' (an object), 'decisions.csv' (a name). */
+  params?: Record<string, string>
   loader?: Access
   /** One entry per form intent where roles differ by intent. */
   action?: Access | Access[]
@@ -50,11 +52,29 @@ const LIVE_WATCH = { allow: STAFF, signedOut: 'unauthorized', bearer: ['develope
 /** Runs, device tokens, feedback link, training, decoder choice (LIVE_CONTROL_ROLES). */
 const LIVE_CONTROL = { allow: ['operator', 'developer'], signedOut: 'unauthorized', bearer: ['developer'] } as const
 const PUBLIC = { allow: 'anyone' } as const
+/** /api/v1 (app/server/api.server.ts requireApiCaller): a developer's token, or a staff cookie for GETs. */
+const API = { allow: STAFF, signedOut: 'unauthorized', bearer: ['developer'] } as const
 
 export const ACCESS_TABLE: Record<string, RouteAccess> = {
   '_index.tsx': { loader: { allow: 'anyone', signedOut: 'sign-in' }, note: 'redirects to the role home or to sign-in' },
   'api-tokens.tsx': { loader: { allow: ['developer'] }, action: { allow: ['developer'] } },
-  'api.v1.sessions.ts': { loader: { allow: STAFF, signedOut: 'unauthorized', bearer: ['developer'] } },
+  'api.v1.sessions.ts': { loader: API },
+  'api.v1.sessions.$sessionId.ts': { loader: API },
+  'api.v1.decoders.ts': { loader: API },
+  'api.v1.decoders.$decoderId.ts': { loader: API },
+  'api.v1.runs.$runId.ts': { loader: API },
+  'api.v1.runs.$runId_.decisions.ts': { loader: API },
+  'api.v1.runs.$runId_.decisions[.]ndjson.ts': { loader: API },
+  'api.v1.runs.$runId_.recording.ts': { loader: API },
+  'bench.tsx': { loader: { allow: ['developer'] }, action: { allow: ['developer'] } },
+  'exports.decoders.$file.ts': { params: { file: '{decoderId}.json' }, loader: { allow: STAFF } },
+  'exports.runs.$runId.$file.ts': { params: { file: 'decisions.csv' }, loader: { allow: STAFF } },
+  'exports.sessions.$sessionId.$file.ts': { params: { file: 'decisions.csv' }, loader: { allow: STAFF } },
+  'review.decoders.$decoderId.tsx': { loader: { allow: STAFF } },
+  'review.participants.$participantId.tsx': { loader: { allow: ['participant', ...STAFF] }, note: "a participant sees their own progress only (another participant's id: 404)" },
+  'review.sessions.$sessionId_.report.tsx': { loader: { allow: STAFF } },
+  'uploads._index.tsx': { loader: { allow: LAB_EDITORS } },
+  'uploads.import.ts': { loader: PUBLIC, action: { allow: LAB_EDITORS, signedOut: 'unauthorized' }, note: 'GET only redirects to /uploads' },
   'audit.tsx': { loader: { allow: SUPERVISOR } },
   'cautions.tsx': { note: 'static page, no loader or action' },
   'forgot-password.tsx': { action: PUBLIC },
@@ -116,7 +136,7 @@ export const ACCESS_TABLE: Record<string, RouteAccess> = {
   },
   'protocols._index.tsx': { loader: { allow: LAB_EDITORS } },
   'protocols.new.tsx': { loader: { allow: SUPERVISOR }, action: { allow: SUPERVISOR } },
-  'review._index.tsx': { loader: { allow: STAFF } },
+  'review._index.tsx': { loader: { allow: STAFF }, action: { allow: SUPERVISOR } },
   'review.sessions.$sessionId.tsx': {
     loader: { allow: STAFF },
     action: [

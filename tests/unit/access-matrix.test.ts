@@ -61,12 +61,30 @@ const OBJECT_PARAMS: Record<string, (lab: LabFixture) => string> = {
   montageId: (lab) => lab.montageId,
   protocolId: (lab) => lab.protocolId,
   sessionId: (lab) => lab.sessionId,
+  runId: (lab) => lab.runId,
+  decoderId: (lab) => lab.decoderId,
 }
 const TOKEN_PARAMS = new Set(['token'])
 
+/** A table template such as '{decoderId}.json' names an object; a plain value ('decisions.csv') does not. */
+function isObjectParam(file: string, name: string): boolean {
+  const template = ACCESS_TABLE[file]?.params?.[name]
+  if (template !== undefined) return template.includes('{')
+  return !TOKEN_PARAMS.has(name)
+}
+
+function fillTemplate(template: string, lab: LabFixture, override?: string): string {
+  return template.replace(/\{(\w+)\}/g, (_m, key: string) => override ?? OBJECT_PARAMS[key]?.(lab) ?? `{${key}}`)
+}
+
 function paramsFor(file: string, lab: LabFixture, override: Record<string, string> = {}): Record<string, string> {
   const out: Record<string, string> = {}
+  const templates = ACCESS_TABLE[file]?.params ?? {}
   for (const name of paramNames(file)) {
+    if (templates[name] !== undefined) {
+      out[name] = fillTemplate(templates[name], lab, override[name])
+      continue
+    }
     if (TOKEN_PARAMS.has(name)) out[name] = 'f'.repeat(43)
     else if (OBJECT_PARAMS[name]) out[name] = OBJECT_PARAMS[name](lab)
     else throw new Error(`${file}: no fixture for $${name}; add one to OBJECT_PARAMS or TOKEN_PARAMS in access-matrix.test.ts`)
@@ -177,7 +195,7 @@ describe('access matrix', () => {
   for (const file of ROUTE_FILES) {
     const spec = ACCESS_TABLE[file]
     if (!spec) continue
-    const objectParams = paramNames(file).filter((n) => !TOKEN_PARAMS.has(n))
+    const objectParams = paramNames(file).filter((n) => isObjectParam(file, n))
 
     describe(file, () => {
       it('exports exactly the loader and action the table lists', async () => {
@@ -225,6 +243,10 @@ describe('access matrix', () => {
               if (objectParams.includes('sessionId') && allowed('participant')) {
                 const got = await invoke(file, kind, { cookie: cookies.get(A.userIds.participant) }, paramsFor(file, A, { sessionId: A.otherSessionId }), access)
                 check("participant on another participant's session", got, 'not-found')
+              }
+              if (objectParams.includes('participantId') && allowed('participant')) {
+                const got = await invoke(file, kind, { cookie: cookies.get(A.userIds.participant) }, paramsFor(file, A, { participantId: A.otherParticipantId }), access)
+                check("participant on another participant's record", got, 'not-found')
               }
             }
 
