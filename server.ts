@@ -19,24 +19,6 @@ import { createLiveServices } from './app/live/index.server.ts'
 const NONCE_HEADER = 'x-tiller-csp-nonce'
 const CLIENT_IP_HEADER = 'x-tiller-client-ip'
 
-/**
- * Passes per-request facts (the CSP nonce, the socket's address) to the React Router handler.
- * The handler builds its Fetch Request from req.rawHeaders, so they go there; any copy a
- * client sent is removed first, so a client can never set them itself.
- */
-function stampInternalHeaders(req: IncomingMessage, values: Record<string, string>) {
-  const names = new Set(Object.keys(values))
-  const kept: string[] = []
-  for (let i = 0; i < req.rawHeaders.length; i += 2) {
-    if (!names.has(req.rawHeaders[i].toLowerCase())) kept.push(req.rawHeaders[i], req.rawHeaders[i + 1])
-  }
-  for (const [name, value] of Object.entries(values)) {
-    kept.push(name, value)
-    req.headers[name] = value
-  }
-  req.rawHeaders.splice(0, req.rawHeaders.length, ...kept)
-}
-
 async function main() {
   let config
   try {
@@ -100,7 +82,10 @@ async function main() {
 
   server.on('request', (req: IncomingMessage, res: ServerResponse) => {
     const nonce = randomBytes(16).toString('base64')
-    stampInternalHeaders(req, { [NONCE_HEADER]: nonce, [CLIENT_IP_HEADER]: req.socket.remoteAddress ?? '' })
+    // The handler builds its Fetch Request from rawHeaders; setTrustedHeader drops any copy the
+    // client sent, so neither the nonce nor the address can be chosen by a client.
+    setTrustedHeader(req, NONCE_HEADER, nonce)
+    setTrustedHeader(req, CLIENT_IP_HEADER, req.socket.remoteAddress ?? '')
     for (const [name, value] of Object.entries(securityHeaders({ production: config.production, nonce }))) res.setHeader(name, value)
 
     if (isCrossSiteWrite(req, config)) {
