@@ -154,14 +154,29 @@ export function decodeBlock(frame: Uint8Array, expectedChannels: number): Sample
   if (sampleCount === 0 || sampleCount > MAX_BLOCK_SAMPLES) throw new FrameError(CloseCode.wrongSampleCount, `block has ${sampleCount} samples; allowed 1..${MAX_BLOCK_SAMPLES}`)
   const expectedBytes = BLOCK_HEADER_BYTES + channelCount * sampleCount * 4
   if (frame.byteLength !== expectedBytes) throw new FrameError(CloseCode.badFrame, `frame is ${frame.byteLength} bytes; header implies ${expectedBytes}`)
-  const samples = new Float32Array(channelCount * sampleCount)
+  const samples = readFloat32LE(frame, BLOCK_HEADER_BYTES, channelCount * sampleCount)
   for (let i = 0; i < samples.length; i++) {
-    const v = view.getFloat32(BLOCK_HEADER_BYTES + i * 4, true)
+    const v = samples[i]
     if (!Number.isFinite(v)) throw new FrameError(CloseCode.nonFiniteSamples, `sample ${Math.floor(i / channelCount)} channel ${i % channelCount} is ${v}`)
     if (Math.abs(v) > ABSURD_AMPLITUDE_UV) throw new FrameError(CloseCode.absurdAmplitude, `sample ${Math.floor(i / channelCount)} channel ${i % channelCount} is ${v} uV, beyond ±${ABSURD_AMPLITUDE_UV} uV`)
-    samples[i] = v
   }
   return { seq, firstSample, channelCount, sampleCount, samples }
+}
+
+const LITTLE_ENDIAN_PLATFORM = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1
+
+/** Copies `count` little-endian float32 values starting at `offset` into a new array. */
+function readFloat32LE(frame: Uint8Array, offset: number, count: number): Float32Array {
+  if (LITTLE_ENDIAN_PLATFORM) {
+    // One aligned copy of the bytes; the platform's own float layout is the wire's.
+    const out = new Float32Array(count)
+    new Uint8Array(out.buffer).set(frame.subarray(offset, offset + count * 4))
+    return out
+  }
+  const view = new DataView(frame.buffer, frame.byteOffset, frame.byteLength)
+  const out = new Float32Array(count)
+  for (let i = 0; i < count; i++) out[i] = view.getFloat32(offset + i * 4, true)
+  return out
 }
 
 /** Parses a JSON text frame; throws FrameError(badMessage) with a readable reason. */

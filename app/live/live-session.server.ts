@@ -20,7 +20,7 @@ import type {
   TrialEvent,
 } from './events.ts'
 import type { LiveLimits } from './limits.ts'
-import type { FromWorker, PipelineSettings } from './pipeline-messages.ts'
+import type { FromWorker, PipelineSettings, ResultMessage } from './pipeline-messages.ts'
 import type { PipelineListener, PipelinePool } from './pipeline-pool.server.ts'
 import { RunState, type AdvanceResult, type CompletedTrial, type PhaseChange } from './run-state.ts'
 import { buildSchedule, type ProtocolTiming } from './schedule.ts'
@@ -232,7 +232,7 @@ export class LiveSession {
     }
     this.meta.push(meta)
     const decide = !!run && run.status === 'running' && this.setup.decoder !== null
-    this.ctx.pool.block(this.id, seq, firstSample, samples.slice(), sampleCount, receivedAt, decide)
+    this.ctx.pool.block(this.id, seq, firstSample, samples, sampleCount, receivedAt, decide)
   }
 
   /** A late block that fills a gap: recorded, not decoded (the causal filters have moved on). */
@@ -245,7 +245,7 @@ export class LiveSession {
     this.event('marker', sample, { label })
   }
 
-  private onResult(m: Extract<FromWorker, { t: 'result' }>): void {
+  private onResult(m: ResultMessage): void {
     const meta = this.meta.shift()
     if (!meta || meta.seq !== m.seq) {
       // Out of step only if the pipeline was reopened mid-flight; drop the stale queue.

@@ -23,19 +23,31 @@ export type ToWorker =
     }
   | { t: 'decoder'; sessionId: string; decoder: Decoder | null }
   | { t: 'settings'; sessionId: string; settings: PipelineSettings }
-  | {
-      t: 'block'
-      sessionId: string
-      seq: number
-      firstSample: number
-      sampleCount: number
-      samples: Float32Array
-      /** Main-thread time the block arrived; echoed back untouched. */
-      receivedAt: number
-      decide: boolean
-    }
+  /** Blocks of any sessions on this worker that arrived in the same turn of the event loop. */
+  | { t: 'blocks'; blocks: BlockMessage[] }
   | { t: 'close'; sessionId: string }
   | { t: 'display-tick' }
+
+export interface BlockMessage {
+  sessionId: string
+  seq: number
+  firstSample: number
+  sampleCount: number
+  samples: Float32Array
+  /** Main-thread time the block arrived; echoed back untouched. */
+  receivedAt: number
+  decide: boolean
+}
+
+export interface ResultMessage {
+  sessionId: string
+  seq: number
+  /** Last sample index used by this block (device clock). */
+  lastSample: number
+  receivedAt: number
+  decision: WorkerDecision | null
+  computeUs: number
+}
 
 export interface WorkerDecision {
   output: number
@@ -46,16 +58,7 @@ export interface WorkerDecision {
 }
 
 export type FromWorker =
-  | {
-      t: 'result'
-      sessionId: string
-      seq: number
-      /** Last sample index used by this block (device clock). */
-      lastSample: number
-      receivedAt: number
-      decision: WorkerDecision | null
-      computeUs: number
-    }
+  | { t: 'results'; results: ResultMessage[] }
   | {
       t: 'display'
       sessionId: string

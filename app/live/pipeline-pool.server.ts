@@ -5,10 +5,10 @@
 // replaces it.
 import { Worker } from 'node:worker_threads'
 import type { Decoder } from '../engine/decoder.ts'
-import type { FromWorker, PipelineSettings, ToWorker } from './pipeline-messages.ts'
+import type { BlockMessage, FromWorker, PipelineSettings, ResultMessage, ToWorker } from './pipeline-messages.ts'
 
 export interface PipelineListener {
-  onResult(message: Extract<FromWorker, { t: 'result' }>): void
+  onResult(message: ResultMessage): void
   onDisplay(message: Extract<FromWorker, { t: 'display' }>): void
   onError(message: string): void
   onWorkerLost(): void
@@ -18,6 +18,9 @@ interface Slot {
   worker: Worker
   sessions: Set<string>
   ready: Promise<void>
+  /** Blocks waiting for the end of this event-loop turn, sent to the worker as one message. */
+  pending: BlockMessage[]
+  flushScheduled: boolean
 }
 
 const bootUrl = new URL('./worker-boot.mjs', import.meta.url)
@@ -48,13 +51,16 @@ export class PipelinePool {
   private spawn(): Slot {
     const worker = new Worker(bootUrl, { workerData: { entry: entryUrl }, name: 'tiller-decoding' })
     let markReady!: () => void
-    const slot: Slot = { worker, sessions: new Set(), ready: new Promise((r) => (markReady = r)) }
+    const slot: Slot = { worker, sessions: new Set(), ready: new Promise((r) => (markReady = r)), pending: [], flushScheduled: false }
     worker.on('message', (message: FromWorker) => {
       if (message.t === 'ready') return markReady()
+      if (message.t === 'results') {
+        for (const result of message.results) this.listeners.get(result.sessionId)?.onResult(result)
+        return
+      }
       const listener = this.listeners.get(message.sessionId)
       if (!listener) return
-      if (message.t === 'result') listener.onResult(message)
-      else if (message.t === 'display') listener.onDisplay(message)
+      if (message.t === 'display') listener.onDisplay(message)
       else listener.onError(message.message)
     })
     worker.on('error', () => this.replace(slot))
@@ -94,17 +100,40 @@ export class PipelinePool {
   block(sessionId: string, seq: number, firstSample: number, samples: Float32Array, sampleCount: number, receivedAt: number, decide: boolean): boolean {
     const slot = this.placement.get(sessionId)
     if (!slot) return false
-    const message: ToWorker = { t: 'block', sessionId, seq, firstSample, sampleCount, samples, receivedAt, decide }
-    slot.worker.postMessage(message, [samples.buffer as ArrayBuffer])
+    // Blocks that arrive in the same turn of the event loop (devices tend to send together)
+    // go to the worker as one message: a post and a thread wake-up cost far more than the
+    // copy of a 4 KiB block. Copied by structured clone, not transferred (measured cheaper
+    // for blocks this size, and the caller keeps its array for the recording).
+    slot.pending.push({ sessionId, seq, firstSample, sampleCount, samples, receivedAt, decide })
+    if (!slot.flushScheduled) {
+      slot.flushScheduled = true
+      setImmediate(() => this.flushSlot(slot))
+    }
     return true
   }
 
+  private flushSlot(slot: Slot): void {
+    slot.flushScheduled = false
+    if (slot.pending.length === 0) return
+    const blocks = slot.pending
+    slot.pending = []
+    slot.worker.postMessage({ t: 'blocks', blocks } satisfies ToWorker)
+  }
+
+  /** Control messages keep their order with the blocks: pending blocks go first. */
+  private control(sessionId: string, message: ToWorker): void {
+    const slot = this.placement.get(sessionId)
+    if (!slot) return
+    this.flushSlot(slot)
+    slot.worker.postMessage(message)
+  }
+
   setDecoder(sessionId: string, decoder: Decoder | null): void {
-    this.placement.get(sessionId)?.worker.postMessage({ t: 'decoder', sessionId, decoder } satisfies ToWorker)
+    this.control(sessionId, { t: 'decoder', sessionId, decoder })
   }
 
   setSettings(sessionId: string, settings: PipelineSettings): void {
-    this.placement.get(sessionId)?.worker.postMessage({ t: 'settings', sessionId, settings } satisfies ToWorker)
+    this.control(sessionId, { t: 'settings', sessionId, settings })
   }
 
   /** Closes the session's pipeline; with `owner`, only if that listener still owns it. */
@@ -112,6 +141,7 @@ export class PipelinePool {
     const slot = this.placement.get(sessionId)
     if (!slot) return
     if (owner && this.listeners.get(sessionId) !== owner) return
+    this.flushSlot(slot)
     slot.worker.postMessage({ t: 'close', sessionId } satisfies ToWorker)
     slot.sessions.delete(sessionId)
     this.placement.delete(sessionId)

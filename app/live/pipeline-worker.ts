@@ -2,7 +2,7 @@
 // processed in arrival order; an exception in one pipeline is reported for that session and
 // never reaches the others.
 import { parentPort } from 'node:worker_threads'
-import type { FromWorker, ToWorker } from './pipeline-messages.ts'
+import type { FromWorker, ResultMessage, ToWorker } from './pipeline-messages.ts'
 import { SessionPipeline } from './session-pipeline.ts'
 
 const port = parentPort
@@ -19,25 +19,28 @@ function fail(sessionId: string, error: unknown): void {
 
 port.on('message', (message: ToWorker) => {
   switch (message.t) {
-    case 'block': {
-      const pipeline = pipelines.get(message.sessionId)
-      if (!pipeline) return
-      const started = performance.now()
-      let decision = null
-      try {
-        decision = pipeline.push(message.firstSample, message.samples, message.sampleCount, message.decide)
-      } catch (error) {
-        fail(message.sessionId, error)
+    case 'blocks': {
+      const results: ResultMessage[] = []
+      for (const block of message.blocks) {
+        const pipeline = pipelines.get(block.sessionId)
+        if (!pipeline) continue
+        const started = performance.now()
+        let decision = null
+        try {
+          decision = pipeline.push(block.firstSample, block.samples, block.sampleCount, block.decide)
+        } catch (error) {
+          fail(block.sessionId, error)
+        }
+        results.push({
+          sessionId: block.sessionId,
+          seq: block.seq,
+          lastSample: block.firstSample + block.sampleCount - 1,
+          receivedAt: block.receivedAt,
+          decision,
+          computeUs: Math.round((performance.now() - started) * 1000),
+        })
       }
-      send({
-        t: 'result',
-        sessionId: message.sessionId,
-        seq: message.seq,
-        lastSample: message.firstSample + message.sampleCount - 1,
-        receivedAt: message.receivedAt,
-        decision,
-        computeUs: Math.round((performance.now() - started) * 1000),
-      })
+      if (results.length > 0) send({ t: 'results', results })
       return
     }
     case 'open': {
