@@ -2,7 +2,9 @@
 // comparison with another decoder of the same participant.
 import { eq } from 'drizzle-orm'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { decoders, participants } from '~/db/schema'
+import { decisions, decoders, participants, recordingChunks } from '~/db/schema'
+import { SessionPipeline } from '~/live/session-pipeline'
+import { chunkSamples } from '~/server/review.server'
 import { channelOrder, replayRun } from '~/server/replay.server'
 import { createTestServices, type TestServices } from '../support/services'
 import { seedReviewSession, type SeededSession } from '../fixtures/review/seed'
@@ -58,6 +60,32 @@ describe('replay', () => {
     const [foreign] = await db.insert(decoders).values({ ...source, id: undefined, participantId: other.id, version: 9 }).returning()
     await expect(replayRun(db, t.labId, seeded.feedbackRunId, foreign.id)).rejects.toThrow(/another participant/)
     await expect(replayRun(db, '00000000-0000-4000-8000-000000000000', seeded.feedbackRunId, seeded.decoderId)).rejects.toThrow(/No such run/)
+  })
+
+  it('reproduces a log made by the live pipeline (app/live/session-pipeline.ts), one decision per 100 ms', async () => {
+    // The live loop's own decoding object, fed the stored samples in 16-sample blocks as a
+    // device link would; its decisions replace the seeded log (run-relative sample = last sample used).
+    const db = t.handle.db
+    const chunks = await db.select().from(recordingChunks).where(eq(recordingChunks.runId, seeded.feedbackRunId)).orderBy(recordingChunks.firstSample)
+    const pipeline = new SessionPipeline('replay-test', seeded.decoder.channels, seeded.decoder.rateHz, [1, 40], 50, { decisionEveryMs: 100, smoothing: 0.5 } as never)
+    pipeline.setDecoder(seeded.decoder)
+    const C = seeded.decoder.channels.length
+    const rows: (typeof decisions.$inferInsert)[] = []
+    for (const chunk of chunks) {
+      const all = chunkSamples(chunk.data)
+      for (let s = 0; s < chunk.sampleCount; s += 16) {
+        const n = Math.min(16, chunk.sampleCount - s)
+        const first = chunk.firstSample + s
+        const d = pipeline.push(first, all.slice(s * C, (s + n) * C), n, true)
+        if (d) rows.push({ sessionId: seeded.sessionId, runId: seeded.feedbackRunId, trialIndex: null, sample: first + n - 1, receivedAt: new Date(), output: d.output, probability: d.probability, decidedClass: d.className, cue: null, latencyUs: 0 })
+      }
+    }
+    await db.delete(decisions).where(eq(decisions.runId, seeded.feedbackRunId))
+    for (let i = 0; i < rows.length; i += 500) await db.insert(decisions).values(rows.slice(i, i + 500))
+    const r = await replayRun(db, t.labId, seeded.feedbackRunId, seeded.decoderId)
+    expect(rows.length).toBeGreaterThan(500)
+    expect(r.comparison.compared).toBe(rows.length)
+    expect(r.comparison.identical).toBe(rows.length)
   })
 
   it('maps channels by name when the run lists them in another order', () => {
