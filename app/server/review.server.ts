@@ -627,7 +627,8 @@ export function periodogram(x: Float64Array, rateHz: number, freqs: number[]): n
   const w = new Float64Array(n)
   let wSq = 0
   for (let i = 0; i < n; i++) {
-    w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / (n - 1))
+    // Periodic Hann, as scipy.signal.get_window('hann', n) uses for spectral estimates.
+    w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n)
     wSq += w[i] * w[i]
   }
   return freqs.map((f) => {

@@ -4,7 +4,7 @@ import { eq } from 'drizzle-orm'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { apiTokens, labs, montages, participants, protocols, runs, sessions, trials, users } from '~/db/schema'
 import { hashToken, newToken } from '~/server/passwords.server'
-import { feedbackRunMetrics, listSessions, sessionLogQuery, sessionReview } from '~/server/review.server'
+import { feedbackRunMetrics, listSessions, periodogram, sessionLogQuery, sessionReview } from '~/server/review.server'
 import { loader as sessionsApi } from '~/routes/api.v1.sessions'
 import { call, cookieFor, createTestServices, request, type TestServices } from '../support/services'
 import reference from '../fixtures/review/review_metrics.json'
@@ -159,5 +159,13 @@ describe('review metrics', () => {
 
   it('has no figures when no trial was decided', () => {
     expect(feedbackRunMetrics(['left', 'right'], [{ index: 0, label: 'left', cueSample: 0, endSample: null, outcome: 'timeout', decidedClass: null }], 9)).toBeNull()
+  })
+})
+
+describe('per-class spectra', () => {
+  it('equal scipy.signal.periodogram with a Hann window and density scaling', () => {
+    const ref = reference.periodogram
+    const ours = periodogram(Float64Array.from(ref.x), ref.rateHz, ref.freqs)
+    ours.forEach((v, i) => expect(v / ref.density[i]).toBeCloseTo(1, 9))
   })
 })
