@@ -105,8 +105,10 @@ export class LiveSession {
   readonly feedbackHub: SseHub
   link: LinkHandle | null = null
   run: RunState | null = null
-  private runSettings: PipelineSettings & { minShare: number } = { decisionEveryMs: 0, smoothing: 0, minShare: 0.6 }
+  private runSettings: PipelineSettings & { minShare: number } = { decisionEveryMs: 0, smoothing: 0, minShare: 0.5 }
   private tally: TrialTally | null = null
+  /** Set once the run's first block has reset the decoder. */
+  private runDecoderStarted = false
   private tallyTrial: number | null = null
   private meta: BlockMeta[] = []
   private lastReason: string | null = null
@@ -232,7 +234,10 @@ export class LiveSession {
     }
     this.meta.push(meta)
     const decide = !!run && run.status === 'running' && this.setup.decoder !== null
-    this.ctx.pool.block(this.id, seq, firstSample, samples, sampleCount, receivedAt, decide)
+    // The run's decisions depend on the run's own samples only, so its recording replays exactly.
+    const reset = !!run?.active && !this.runDecoderStarted
+    if (reset) this.runDecoderStarted = true
+    this.ctx.pool.block(this.id, seq, firstSample, samples, sampleCount, receivedAt, decide, reset)
   }
 
   /** A late block that fills a gap: recorded, not decoded (the causal filters have moved on). */
@@ -407,7 +412,7 @@ export class LiveSession {
       this.runSettings = {
         decisionEveryMs: clamp(options.decisionEveryMs ?? 0, 0, 10_000),
         smoothing: clamp(options.smoothing ?? 0, 0, 0.99),
-        minShare: clamp(options.minShare ?? 0.6, 0, 1),
+        minShare: clamp(options.minShare ?? 0.5, 0, 1),
       }
       this.ctx.pool.setSettings(this.id, this.runSettings)
       const db = this.ctx.db
@@ -433,6 +438,7 @@ export class LiveSession {
         this.setup.status = 'live'
       }
       this.run = new RunState(row.id, options.kind, row.index, row.decoderId, schedule, this.processedSampleOrNext(), startedAt)
+      this.runDecoderStarted = false
       this.tally = null
       this.event('run_started', 0, { kind: options.kind, index: row.index, trials: schedule.length, seed })
       this.publishRun()

@@ -37,6 +37,8 @@ export interface BlockMessage {
   /** Main-thread time the block arrived; echoed back untouched. */
   receivedAt: number
   decide: boolean
+  /** First block of a run: the decoder starts from rest, so a replay of the run's recording gives the same numbers. */
+  reset: boolean
 }
 
 export interface ResultMessage {

@@ -97,14 +97,14 @@ export class PipelinePool {
     return this.placement.has(sessionId)
   }
 
-  block(sessionId: string, seq: number, firstSample: number, samples: Float32Array, sampleCount: number, receivedAt: number, decide: boolean): boolean {
+  block(sessionId: string, seq: number, firstSample: number, samples: Float32Array, sampleCount: number, receivedAt: number, decide: boolean, reset = false): boolean {
     const slot = this.placement.get(sessionId)
     if (!slot) return false
     // Blocks that arrive in the same turn of the event loop (devices tend to send together)
     // go to the worker as one message: a post and a thread wake-up cost far more than the
     // copy of a 4 KiB block. Copied by structured clone, not transferred (measured cheaper
     // for blocks this size, and the caller keeps its array for the recording).
-    slot.pending.push({ sessionId, seq, firstSample, sampleCount, samples, receivedAt, decide })
+    slot.pending.push({ sessionId, seq, firstSample, sampleCount, samples, receivedAt, decide, reset })
     if (!slot.flushScheduled) {
       slot.flushScheduled = true
       setImmediate(() => this.flushSlot(slot))

@@ -27,6 +27,7 @@ port.on('message', (message: ToWorker) => {
         const started = performance.now()
         let decision = null
         try {
+          if (block.reset) pipeline.resetDecoder()
           decision = pipeline.push(block.firstSample, block.samples, block.sampleCount, block.decide)
         } catch (error) {
           fail(block.sessionId, error)

@@ -76,6 +76,13 @@ export class SessionPipeline {
     this.control = 0
   }
 
+  /** Back to rest: filter state, window and control signal, as a fresh decoder on the run's first sample. */
+  resetDecoder(): void {
+    this.online?.reset()
+    this.samplesSinceDecision = 0
+    this.control = 0
+  }
+
   setSettings(settings: PipelineSettings): void {
     this.settings = settings
     this.control = 0

@@ -12,6 +12,8 @@ import * as operatorRoute from '~/routes/live.$sessionId.operator'
 import * as runsRoute from '~/routes/live.$sessionId.runs'
 import * as trainingRoute from '~/routes/live.$sessionId.training'
 import * as tokensRoute from '~/routes/live.$sessionId.device-tokens'
+import { createOnlineDecoder } from '~/engine/online'
+import type { Decoder } from '~/engine/decoder'
 import { call, cookieFor, request } from '../support/services'
 import { readEvents, sleep, startLiveHarness, streamRealTime, TestDevice, type LiveHarness } from './live-support'
 
@@ -202,6 +204,22 @@ describe('feedback run', () => {
     expect(logged.some((d) => d.cue !== null && d.trialIndex !== null)).toBe(true)
     expect(logged.every((d) => d.latencyUs > 0)).toBe(true)
     expect(live.decisionsLogged).toBe(live.counts.decisionsMade)
+    // Replaying the run's recording through a fresh copy of the decoder gives the logged numbers.
+    const [decoderRow] = await h.t.handle.db.select().from(decoders).where(eq(decoders.id, run.decoderId!))
+    const online = createOnlineDecoder(decoderRow.model as unknown as Decoder)
+    const chunks = await h.t.handle.db.select().from(recordingChunks).where(eq(recordingChunks.runId, runId)).orderBy(asc(recordingChunks.firstSample))
+    const C = s.channels.length
+    const all = new Float32Array(run.sampleCount * C)
+    for (const c of chunks) all.set(new Float32Array(new Uint8Array(c.data).slice().buffer), c.firstSample * C)
+    let cursor = 0
+    const ordered = [...logged].sort((a, b) => a.sample - b.sample)
+    for (const d of ordered) {
+      const upTo = d.sample + 1
+      const out = online.push(all.subarray(cursor * C, upTo * C), upTo - cursor)
+      cursor = upTo
+      expect(out.output).toBeCloseTo(d.output, 9)
+      expect(out.className).toBe(d.decidedClass)
+    }
     const kinds = (await h.t.handle.db.select().from(sessionEvents).where(and(eq(sessionEvents.sessionId, s.sessionId), eq(sessionEvents.runId, runId)))).map((e) => e.kind)
     expect(kinds).toEqual(expect.arrayContaining(['run_started', 'run_paused', 'run_resumed', 'run_stopped']))
 
