@@ -207,7 +207,7 @@ export function allowedControls(d: Pick<ConsoleData, 'device' | 'run' | 'decoder
 export function createConsoleStore(seed: Partial<ConsoleData> = {}): StoreApi<ConsoleStore> {
   return createStore<ConsoleStore>((set) => ({
     ...initialConsoleData(seed),
-    view: { signal: 'filtered', scaleUv: 50, windowSeconds: 8 },
+    view: { signal: 'filtered', scaleUv: 50, windowSeconds: 5 },
     stream: 'connecting',
     apply: (name, data) => set((s) => applyOperatorEvent(s, name, data) as Partial<ConsoleStore>),
     setView: (patch) => set((s) => ({ view: { ...s.view, ...patch } })),

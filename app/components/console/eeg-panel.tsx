@@ -5,7 +5,9 @@ import { useConsole, useConsoleApi, useFrames } from './console-context'
 import { EegTraces } from './traces'
 
 const SCALES = [10, 20, 50, 100, 200, 500]
-const WINDOWS = [4, 8, 12]
+// Seconds across the chart. The cost of a frame grows with the points drawn (channels ×
+// display rate × seconds), so the default stays short enough for 64 channels at 60 fps.
+const WINDOWS = [4, 5, 8, 12]
 
 export function EegPanel({ channels, band }: { channels: string[]; band: [number, number] }) {
   const canvas = useRef<HTMLCanvasElement>(null)

@@ -14,6 +14,26 @@ export function classColour(classes: string[], label: string | null): string {
   return i >= 0 ? CLASS_COLOURS[i % CLASS_COLOURS.length] : '#a3b5ba'
 }
 
+/**
+ * Keeps the canvas's drawing size equal to its layout size. smoothie's own `responsive`
+ * mode reads offsetWidth on every frame, which forces a layout whenever React has touched
+ * the page; a ResizeObserver does the same job only when the size really changes.
+ */
+function fitCanvas(canvas: HTMLCanvasElement, onResize?: () => void): ResizeObserver | null {
+  const apply = () => {
+    const w = Math.max(1, Math.floor(canvas.clientWidth))
+    const h = Math.max(1, Math.floor(canvas.clientHeight))
+    if (canvas.width !== w) canvas.width = w
+    if (canvas.height !== h) canvas.height = h
+    onResize?.()
+  }
+  apply()
+  if (typeof ResizeObserver === 'undefined') return null
+  const observer = new ResizeObserver(apply)
+  observer.observe(canvas)
+  return observer
+}
+
 function millisPerPixel(canvas: HTMLCanvasElement, windowSeconds: number): number {
   return (windowSeconds * 1000) / Math.max(200, canvas.clientWidth || canvas.width)
 }
@@ -46,7 +66,7 @@ export class EegTraces {
       minValue: -this.scaleUv,
       maxValue: channels.length * this.scaleUv,
       scaleSmoothing: 1,
-      responsive: true,
+      responsive: false,
       enableDpiScaling: false,
     })
     for (let i = 0; i < channels.length; i++) {
@@ -54,8 +74,11 @@ export class EegTraces {
       this.filtered.push(new TimeSeries())
     }
     this.show(view.signal)
+    this.resizer = fitCanvas(canvas, () => this.setWindow(this.windowSeconds))
     this.chart.streamTo(canvas, 300)
   }
+
+  private resizer: ResizeObserver | null = null
 
   private offset(i: number): number {
     return (this.channels.length - 1 - i) * this.scaleUv
@@ -127,6 +150,7 @@ export class EegTraces {
   }
 
   stop(): void {
+    this.resizer?.disconnect()
     this.chart.stop()
   }
 }
@@ -180,13 +204,16 @@ export class OutputTraces {
       minValue: -1.05,
       maxValue: 1.05,
       horizontalLines: [{ value: 0, color: '#35474e', lineWidth: 1 }],
-      responsive: true,
+      responsive: false,
       enableDpiScaling: false,
     })
     this.bands = new CueBands(this.chart, classes, -1.05, 1.05)
     this.chart.addTimeSeries(this.control, { strokeStyle: '#e6edef', lineWidth: 2 })
+    this.resizer = fitCanvas(canvas)
     this.chart.streamTo(canvas, 300)
   }
+
+  private resizer: ResizeObserver | null = null
 
   decision(d: DecisionEvent): void {
     this.control.append(this.clock.timeOf(d.sample, Date.now()), d.control)
@@ -202,6 +229,7 @@ export class OutputTraces {
 
   stop(): void {
     this.bands.stop()
+    this.resizer?.disconnect()
     this.chart.stop()
   }
 }
@@ -220,11 +248,14 @@ export class BandPowerTraces {
       grid: { ...GRID, verticalSections: 2 },
       labels: { fillStyle: '#a3b5ba', fontSize: 11, precision: 1 },
       scaleSmoothing: 0.15,
-      responsive: true,
+      responsive: false,
       enableDpiScaling: false,
     })
+    this.resizer = fitCanvas(canvas)
     this.chart.streamTo(canvas, 300)
   }
+
+  private resizer: ResizeObserver | null = null
 
   /** Component names in chart order, for the legend. */
   names(): string[] {
@@ -252,6 +283,7 @@ export class BandPowerTraces {
   }
 
   stop(): void {
+    this.resizer?.disconnect()
     this.chart.stop()
   }
 }

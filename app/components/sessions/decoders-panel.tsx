@@ -178,7 +178,9 @@ export function DecodersPanel({ overview, montage, canChange }: { overview: Over
   const { session, decoders, runs } = overview
   const revalidator = useRevalidator()
   const [error, setError] = useState<string | null>(null)
-  const [open, setOpen] = useState<string | null>(decoders[0]?.id ?? null)
+  // The newest decoder starts opened; after the operator picks one, their choice stands.
+  const [picked, setOpen] = useState<string | null | undefined>(undefined)
+  const open = picked === undefined ? (decoders[0]?.id ?? null) : picked
   const activate = async (decoderId: string) => {
     setError(null)
     const reply = await postLive(livePaths.decoder(session.id), { decoderId })
