@@ -117,6 +117,10 @@ export default function Uploads({ loaderData }: Route.ComponentProps) {
         {plan ? (
           <fieldset className="rounded-md border border-brass p-4">
             <legend className="px-1 font-medium text-brass">Match the montage’s channels to the file’s</legend>
+            <p role="alert" className="mb-3 text-sm">
+              The file names some channels differently ({plan.fileChannels.join(', ')}). Choose the file channel of each montage site, or leave it as not recorded, then import
+              again.
+            </p>
             <div className="grid grid-cols-2 gap-3 md:grid-cols-4">
               {plan.montageNames.map((m) => (
                 <div key={m}>
@@ -153,7 +157,7 @@ export default function Uploads({ loaderData }: Route.ComponentProps) {
           ) : null}
         </div>
       </form>
-      {error ? (
+      {error && !error.needsMapping ? (
         <p role="alert" className="mt-4 text-rust">
           {error.message}
         </p>

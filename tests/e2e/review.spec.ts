@@ -150,3 +150,21 @@ test('a developer pulls the same data through the API with a token', async ({ pa
   expect((await recording.body()).subarray(0, 8).toString()).toBe('0       ')
   expect((await request.get(`${base}/api/v1/sessions`, { headers: { Authorization: 'Bearer tapi_wrong' } })).status()).toBe(401)
 })
+
+test('a supervisor imports an earlier EDF+ recording through the channel matching step', async ({ page }) => {
+  await signIn(page, 'supervisor')
+  await page.goto(`${base}/uploads`)
+  await page.getByLabel('Participant').selectOption({ label: 'HS-022' })
+  await page.getByLabel(/Protocol/).selectOption({ index: 1 })
+  await page.getByLabel('Montage').selectOption({ label: 'sensorimotor 16 · 16 channels' })
+  await page.getByLabel(/Recording file/).setInputFiles('tests/fixtures/review/upload.edf')
+  await page.getByLabel(/Cue labels/).fill('T1=left, T2=right')
+  await page.getByRole('button', { name: 'Import' }).click()
+  await expect(page.getByText(/Match the montage/)).toBeVisible()
+  await page.getByLabel('FC4', { exact: true }).selectOption('Ch8')
+  await page.getByRole('button', { name: 'Import with this matching' }).click()
+  await expect(page.getByText(/Imported: 40 cued trials, 8 channels/)).toBeVisible({ timeout: 30_000 })
+  await page.getByRole('link', { name: 'Open the imported session' }).click()
+  await expect(page.getByText(/Calibration run: 40 cued trials \(20 left, 20 right\)/)).toBeVisible()
+})
+
