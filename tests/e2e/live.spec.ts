@@ -173,14 +173,22 @@ test('an operator runs a complete session with the simulator; the participant fo
   await waitForRunEnd(operator, 10_000)
 
   // --- every decision is in the log -----------------------------------------------------------
+  // Figures arrive once a second: wait until made equals logged and holds still across reads.
   const figure = operator.locator('[data-figure="Decisions made · logged"]')
+  const readFigure = async () => ((await figure.textContent()) ?? '').split('·').map((s) => Number(s.replace(/[^0-9]/g, '')))
+  let previous = -1
   await expect
-    .poll(async () => {
-      const [made, logged] = ((await figure.textContent()) ?? '').split('·').map((s) => Number(s.replace(/[^0-9]/g, '')))
-      return made > 0 && made === logged ? made : -1
-    }, { timeout: 15_000 })
-    .toBeGreaterThan(0)
-  const made = Number(((await figure.textContent()) ?? '').split('·')[0].replace(/[^0-9]/g, ''))
+    .poll(
+      async () => {
+        const [made, logged] = await readFigure()
+        const stable = made > 0 && made === logged && made === previous
+        previous = made === logged ? made : -1
+        return stable
+      },
+      { timeout: 20_000, intervals: [1500] },
+    )
+    .toBe(true)
+  const [made] = await readFigure()
 
   operator.once('dialog', (d) => void d.accept())
   await operator.getByRole('button', { name: 'End session' }).click()
