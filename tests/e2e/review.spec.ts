@@ -115,7 +115,7 @@ test('an operator can review but not sign off; a participant sees only their own
   await page.goto(`${base}/review/sessions/${ids.second.sessionId}`)
   await expect(page.getByText('Only a supervisor can sign off a session.')).toBeVisible()
   await expect(page.getByRole('button', { name: 'Sign off and lock' })).toHaveCount(0)
-  await page.getByRole('button', { name: 'Sign out' }).click()
+  await page.context().clearCookies()
 
   await signIn(page, 'participant')
   await page.goto(`${base}/review/participants/${ids.first.participantId}`)

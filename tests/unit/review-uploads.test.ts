@@ -23,7 +23,7 @@ let mapping: Record<string, string> = {}
 function uploadRequest(bytes: Uint8Array, extra: Record<string, string> = {}, cookie = operatorCookie, name = 'upload.edf') {
   const body = new FormData()
   for (const [k, v] of Object.entries({ ...fields, ...extra })) body.append(k, v)
-  body.append('recording', new Blob([bytes]), name)
+  body.append('recording', new Blob([new Uint8Array(bytes)]), name)
   return new Request('http://tiller.test/uploads/import', { method: 'POST', body, headers: { Cookie: cookie, 'X-Tiller-Upload': 'xhr' } })
 }
 
