@@ -65,6 +65,11 @@ async function measureFps(page: Page, ms: number): Promise<number> {
   )
 }
 
+/** Screens kept with the test's output, for a person to look at. */
+async function keep(page: Page, name: string) {
+  await page.screenshot({ path: test.info().outputPath(`${name}.png`), fullPage: true })
+}
+
 async function waitForRunEnd(console: Page, timeoutMs: number) {
   await expect(console.getByTestId('console-state')).toHaveText(/stopped/i, { timeout: timeoutMs })
 }
@@ -92,6 +97,11 @@ test('an operator runs a complete session with the simulator; the participant fo
   const participant = await participantContext.newPage()
   await participant.goto(new URL(link).pathname + new URL(link).search)
   await expect(participant.getByText('Welcome')).toBeVisible()
+  // The computer's own setting turns reduced motion on and says so.
+  await participant.emulateMedia({ reducedMotion: 'reduce' })
+  await expect(participant.getByLabel(/Reduced motion \(set by this computer\)/)).toBeChecked()
+  await participant.emulateMedia({ reducedMotion: 'no-preference' })
+  await expect(participant.getByLabel(/Reduced motion/)).not.toBeChecked()
   // Record every change of screen with its time, for the flash check at the end.
   await participant.evaluate(() => {
     const view = document.querySelector('[data-testid=feedback-view]')!
@@ -118,12 +128,14 @@ test('an operator runs a complete session with the simulator; the participant fo
   await operator.getByRole('radio', { name: /Band-passed/ }).click()
   await operator.waitForTimeout(1500)
   const fpsIdle = await measureFps(operator, 3000)
+  await keep(operator, 'console-device-connected')
 
   // --- calibration run (5 per class) --------------------------------------------------------
   await operator.getByLabel('Trials per class').fill('5')
   await operator.getByRole('button', { name: 'Start calibration' }).click()
   await expect(operator.getByTestId('console-state')).toHaveText(/recording/i)
   await expect(participant.locator('[data-glyph]')).toBeVisible({ timeout: 10_000 })
+  await keep(participant, 'feedback-cue')
   // 64 channels scrolling during a recording run: the frame rate the operator gets.
   const fpsRecording = await measureFps(operator, 5000)
   test.info().annotations.push({ type: 'console fps (64 channels)', description: `idle ${fpsIdle.toFixed(1)}, recording ${fpsRecording.toFixed(1)}` })
@@ -132,6 +144,7 @@ test('an operator runs a complete session with the simulator; the participant fo
   // rate); when other jobs keep every core busy the renderer gets less CPU, so the floor drops.
   const busy = loadavg()[0] / cpus().length > 1.5
   expect(fpsRecording).toBeGreaterThanOrEqual(busy ? 25 : 50)
+  await keep(operator, 'console-recording')
   await waitForRunEnd(operator, 60_000)
   await expect(participant.getByText('Run finished')).toBeVisible({ timeout: 5_000 })
 
@@ -143,8 +156,9 @@ test('an operator runs a complete session with the simulator; the participant fo
   const decoder = operator.getByTestId('decoder').first()
   await expect(decoder).toBeVisible({ timeout: 60_000 })
   await expect(decoder).toContainText('CV accuracy')
-  await expect(decoder.getByRole('img', { name: /scalp pattern/ }).first()).toBeVisible()
+  await expect(decoder.getByRole('img', { name: /strongest at/ }).first()).toBeVisible()
   await expect(decoder.getByRole('table')).toContainText('CSP')
+  await keep(operator, 'session-decoder')
   await decoder.getByRole('button', { name: 'Activate' }).click()
   await expect(decoder).toContainText('active', { timeout: 10_000 })
 
@@ -155,20 +169,41 @@ test('an operator runs a complete session with the simulator; the participant fo
   await operator.getByRole('button', { name: 'Start feedback' }).click()
   await expect(operator.getByTestId('console-state')).toHaveText(/decoding/i)
   await expect(participant.getByTestId('feedback-track')).toBeVisible({ timeout: 10_000 })
+  await participant.waitForTimeout(700)
+  await keep(participant, 'feedback-imagery')
+  await keep(operator, 'console-decoding')
   await operator.getByRole('textbox', { name: 'Annotation' }).fill('participant reports the left cue is easier')
   await operator.getByRole('button', { name: 'Add' }).click()
   await expect(operator.getByTestId('annotations')).toContainText('left cue is easier')
   await waitForRunEnd(operator, 40_000)
   await expect(participant.getByTestId('run-summary')).toContainText(/of 4 trials reached the target/)
+  await keep(participant, 'feedback-summary')
 
   await operator.getByRole('button', { name: 'Start feedback' }).click()
   await expect(operator.getByTestId('console-state')).toHaveText(/decoding/i)
   await operator.getByRole('button', { name: 'Pause' }).click()
   await expect(operator.getByTestId('console-state')).toHaveText(/paused/i)
   await expect(participant.getByText('Break')).toBeVisible()
+  await keep(participant, 'feedback-break')
+  await keep(operator, 'console-paused')
   await operator.getByRole('button', { name: 'Resume' }).click()
   await expect(operator.getByTestId('console-state')).toHaveText(/decoding/i)
-  await operator.waitForTimeout(3500)
+  // Reduced motion, chosen on the participant's screen: the marker no longer glides, it steps
+  // to the latest value at most four times a second.
+  await participant.getByLabel(/Reduced motion/).check()
+  await expect(participant.getByTestId('feedback-marker')).toBeVisible({ timeout: 10_000 })
+  const markerMoves = await participant.evaluate(
+    () =>
+      new Promise<number>((resolve) => {
+        const marker = document.querySelector('[data-testid=feedback-marker]')!
+        let moves = 0
+        const observer = new MutationObserver(() => moves++)
+        observer.observe(marker, { attributes: true, attributeFilter: ['data-position'] })
+        setTimeout(() => (observer.disconnect(), resolve(moves)), 1000)
+      }),
+  )
+  expect(markerMoves).toBeLessThanOrEqual(5)
+  await operator.waitForTimeout(1500)
   await operator.getByRole('button', { name: 'Stop run' }).click()
   await waitForRunEnd(operator, 10_000)
 
@@ -203,6 +238,7 @@ test('an operator runs a complete session with the simulator; the participant fo
   for (const r of counts.filter((r) => r.kind === 'feedback')) expect(r.decisions).toBeGreaterThan(0)
   expect(logged).toBe(made)
   await expect(operator.getByText('participant reports the left cue is easier')).toBeVisible()
+  await keep(operator, 'session-ended')
 
   // --- no more than three screen changes in any second on the participant's view (WCAG 2.3.1) ---
   const changes = await participant.evaluate(() => (window as unknown as { screenChanges: { at: number }[] }).screenChanges.map((c) => c.at))
@@ -215,5 +251,6 @@ test('an operator runs a complete session with the simulator; the participant fo
   expect(worst).toBeLessThanOrEqual(3)
 
   await developer.goto(`/bench?session=${sessionId}`)
+  await keep(developer, 'bench')
   if (await developer.getByRole('button', { name: 'Stop device' }).isVisible()) await developer.getByRole('button', { name: 'Stop device' }).click()
 })

@@ -62,7 +62,7 @@ export function DecoderTracesPanel({ classes }: { classes: string[] }) {
       <canvas ref={outCanvas} data-testid="output-canvas" className="block h-28 w-full" role="img" aria-label="Classifier output over time, with cue periods behind it" />
       <p className="text-xs text-haze" aria-live="polite">
         {decoder ? `Decoder v${decoder.version} · ${decoder.method}` : 'No decoder active: outputs appear once one is activated.'}
-        {last ? ` · last decision ${last.className} (p = ${last.probability.toFixed(2)}, ${last.latencyMs.toFixed(1)} ms)` : ''}
+        {last ? ` · last decision ${last.className} (p = ${last.probability.toFixed(2)}, ${last.latencyMs < 1 ? last.latencyMs.toFixed(2) : last.latencyMs.toFixed(1)} ms)` : ''}
       </p>
       <div className="flex flex-wrap items-baseline justify-between gap-2">
         <h3 className="text-sm font-bold">Component band power (log-variance)</h3>

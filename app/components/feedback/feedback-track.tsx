@@ -65,7 +65,7 @@ export function FeedbackTrack({ control, classes, target, reducedMotion }: { con
       {end(a, 'left')}
       <div className="relative h-[9vmin] flex-1 rounded-full" style={{ background: P.track }}>
         {targetSide ? (
-          <div className="absolute top-0 h-full w-[22%] rounded-full" style={{ [targetSide]: 0, border: `0.6vmin solid ${P.target}` }} aria-hidden="true" />
+          <div className="absolute top-0 h-full w-[22%] rounded-full" style={{ [targetSide]: 0, background: `${P.target}33`, border: `0.6vmin solid ${P.target}` }} aria-hidden="true" />
         ) : null}
         <div className="absolute top-1/2 left-1/2 h-[3vmin] w-[0.5vmin] -translate-x-1/2 -translate-y-1/2" style={{ background: P.soft }} aria-hidden="true" />
         <div

@@ -5,7 +5,8 @@ import { useEffect, useState } from 'react'
 import { useRevalidator } from 'react-router'
 import type { SessionOverview } from '~/server/sessions.server'
 import type { TrainingInfo } from '~/live/events'
-import { PatternMap, type Electrode } from '~/components/console/scalp'
+import type { Electrode } from '~/components/console/scalp'
+import { ColourBar, ScalpMap } from '~/components/scalp-map'
 import { StatusBadge } from '~/components/console/status-badge'
 import { livePaths, postLive } from '~/components/console/live-client'
 
@@ -41,11 +42,18 @@ function Patterns({ decoder, montage }: { decoder: DecoderRow; montage: Electrod
   const n = decoder.patterns.length
   // The first and last components are the most discriminative for CSP (largest and smallest eigenvalues).
   const picks = n <= 4 ? decoder.patterns.map((_, i) => i) : [0, 1, n - 2, n - 1]
+  // Patterns (Haufe et al. 2014) drawn with spherical splines (Perrin et al. 1989), each scaled
+  // to its own largest value: the sign and spread matter, not the absolute size.
   return (
-    <div className="flex flex-wrap gap-3">
-      {picks.map((i) => (
-        <PatternMap key={i} electrodes={electrodes} values={decoder.patterns[i]} title={decoder.componentNames[i] ?? `Component ${i + 1}`} size={130} />
-      ))}
+    <div>
+      <div className="flex flex-wrap gap-4">
+        {picks.map((i) => (
+          <ScalpMap key={i} title={decoder.componentNames[i] ?? `Component ${i + 1}`} positions={electrodes} names={decoder.channels} values={decoder.patterns[i]} unit="a.u." size={130} />
+        ))}
+      </div>
+      <div className="mt-2">
+        <ColourBar limitLabel="max" unit="pattern, relative to its largest weight" />
+      </div>
     </div>
   )
 }
@@ -156,7 +164,7 @@ function TrainForm({ sessionId, runs, disabled }: { sessionId: string; runs: Ove
             ))}
           </select>
         </div>
-        <button type="submit" className="btn-primary" disabled={disabled || busy || picked.length === 0}>
+        <button type="submit" className="btn-primary disabled:bg-ink-700 disabled:text-haze disabled:opacity-100" disabled={disabled || busy || picked.length === 0}>
           {busy ? 'Training…' : 'Train decoder'}
         </button>
       </div>
@@ -226,7 +234,7 @@ export function DecodersPanel({ overview, montage, canChange }: { overview: Over
                     {open === d.id ? 'Hide details' : 'Details'}
                   </button>
                   {!active && canChange ? (
-                    <button type="button" className="btn-primary" onClick={() => void activate(d.id)}>
+                    <button type="button" className="btn-primary disabled:bg-ink-700 disabled:text-haze disabled:opacity-100" onClick={() => void activate(d.id)}>
                       Activate
                     </button>
                   ) : null}

@@ -32,7 +32,7 @@ export function DeviceTokensPanel({ tokens, disabled }: { tokens: Token[]; disab
             <option value="168">7 days</option>
           </select>
         </div>
-        <button type="submit" className="btn-primary" disabled={disabled || create.state !== 'idle'}>
+        <button type="submit" className="btn-primary disabled:bg-ink-700 disabled:text-haze disabled:opacity-100" disabled={disabled || create.state !== 'idle'}>
           Create token
         </button>
       </create.Form>
