@@ -111,9 +111,10 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
     const { token } = await createDeviceToken(db, { labId, sessionId: session.id, createdBy: null, hours: 1 })
     setup.push({ sessionId: session.id, token })
   }
-  // Seed review data so the heavy query has something to chew on (about 200 000 decisions).
+  // Seed review data so the heavy query has something to chew on: 200 000 decisions of 50 earlier runs.
   await db.execute(sql`insert into decisions (session_id, run_id, trial_index, sample, received_at, output, probability, decided_class, cue, latency_us)
-    select ${setup[0].sessionId}::uuid, gen_random_uuid(), g % 40, g, now(), random(), random(), 'left', 'left', (random() * 1000)::int from generate_series(1, 200000) g`)
+    select ${setup[0].sessionId}::uuid, md5((g % 50)::text)::uuid, g % 40, g, now(), random(), random(), case when random() < 0.5 then 'left' else 'right' end, 'left', (random() * 1000)::int
+    from generate_series(1, 200000) g`)
   const seeded = 200000
 
   const { monitorEventLoopDelay } = await import('node:perf_hooks')

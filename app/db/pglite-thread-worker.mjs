@@ -61,6 +61,10 @@ async function handle(message) {
       })
       return null
     }
+    case 'dump': {
+      const file = await pg.dumpDataDir(message.compression)
+      return { bytes: new Uint8Array(await file.arrayBuffer()), name: file.name, type: file.type }
+    }
     case 'close':
       await pg.close()
       return null

@@ -104,6 +104,12 @@ export class PgliteThread {
     }
   }
 
+  /** PGlite's dumpDataDir (a tarball of the data directory, for backups), made in the database thread. */
+  async dumpDataDir(compression: 'auto' | 'gzip' | 'none' = 'auto'): Promise<File> {
+    const { bytes, name, type } = await this.call<{ bytes: Uint8Array; name: string; type: string }>({ op: 'dump', compression })
+    return new File([bytes as Uint8Array<ArrayBuffer>], name, { type })
+  }
+
   async close(): Promise<void> {
     if (!this.failed) await this.call({ op: 'close' }).catch(() => undefined)
     await this.worker.terminate()

@@ -52,6 +52,13 @@ test('PostgreSQL error codes reach the caller (23505 unique violation, SQLSTATE 
   expect(code).toBe('23505')
 })
 
+test('dumpDataDir (used by backups) works through the thread', async () => {
+  const file = await client.dumpDataDir('gzip')
+  const bytes = new Uint8Array(await file.arrayBuffer())
+  // gzip magic number 1f 8b (RFC 1952 section 2.3.1)
+  expect([bytes[0], bytes[1]]).toEqual([0x1f, 0x8b])
+})
+
 test('a long query runs without blocking the main thread', async () => {
   let maxGapMs = 0
   let last = performance.now()
