@@ -22,7 +22,7 @@ export async function loader({ request, context, params }: Route.LoaderArgs) {
   return { role: user.role }
 }
 
-export default function ConsolePage() {
+export default function ConsolePage({ loaderData }: Route.ComponentProps) {
   const parent = useRouteLoaderData<typeof sessionLoader>('routes/sessions.$sessionId')
   if (!parent) return null
   const { session, participant, montage, protocol, annotations } = parent.overview
@@ -48,7 +48,7 @@ export default function ConsolePage() {
             Session page: device tokens, feedback link, decoders
           </Link>
         </div>
-        <RunControls defaultTrialsPerClass={protocol?.trialsPerClass ?? 20} />
+        <RunControls defaultTrialsPerClass={protocol?.trialsPerClass ?? 20} canControl={loaderData.role === 'operator' || loaderData.role === 'developer'} />
         <div className="grid gap-3 2xl:grid-cols-[1fr_20rem] xl:grid-cols-[1fr_18rem]">
           <div className="min-w-0 space-y-3">
             <EegPanel channels={channels} band={protocol?.band ?? [8, 30]} />

@@ -19,11 +19,12 @@ const ROLES = ['operator', 'supervisor', 'developer'] as const
 export async function loader({ request, context, params }: Route.LoaderArgs) {
   const user = await requireUser(request, context, { roles: [...ROLES] })
   const session = await requireSessionAccess(context, user, params.sessionId)
-  return { overview: await sessionOverview(context.services.db, session) }
+  // Supervisors watch and review; run control, tokens, training and decoders are the operator's and developer's (live API roles).
+  return { overview: await sessionOverview(context.services.db, session), canControl: user.role === 'operator' || user.role === 'developer' }
 }
 
 export async function action({ request, context, params }: Route.ActionArgs) {
-  const user = await requireUser(request, context, { roles: ['operator', 'supervisor', 'developer'] })
+  const user = await requireUser(request, context, { roles: ['operator', 'developer'] })
   const session = await requireSessionAccess(context, user, params.sessionId)
   const parsed = parseForm(sessionLinkSchema, await request.formData())
   if (!parsed.ok) return { error: Object.values(parsed.errors).flat()[0] ?? 'Check the form' }
@@ -33,7 +34,7 @@ export async function action({ request, context, params }: Route.ActionArgs) {
 export default function SessionPage({ loaderData }: Route.ComponentProps) {
   const outlet = useOutlet()
   if (outlet) return outlet
-  const { overview } = loaderData
+  const { overview, canControl } = loaderData
   const { session, participant, montage, protocol } = overview
   const finished = session.status !== 'planned' && session.status !== 'live'
   return (
@@ -61,7 +62,7 @@ export default function SessionPage({ loaderData }: Route.ComponentProps) {
             </h2>
             <RunsTable runs={overview.runs} />
           </section>
-          <DecodersPanel overview={overview} montage={montage?.channels ?? []} canChange={!finished} />
+          <DecodersPanel overview={overview} montage={montage?.channels ?? []} canChange={!finished && canControl} />
           <section aria-labelledby="notes-h" className="panel">
             <h2 id="notes-h" className="font-bold">
               Notes and annotations
@@ -79,8 +80,8 @@ export default function SessionPage({ loaderData }: Route.ComponentProps) {
           </section>
         </div>
         <div className="space-y-6">
-          <DeviceTokensPanel tokens={overview.deviceTokens} disabled={finished} />
-          <FeedbackLinkPanel sessionId={session.id} hasLink={session.hasFeedbackLink} disabled={finished} />
+          <DeviceTokensPanel tokens={overview.deviceTokens} disabled={finished || !canControl} />
+          <FeedbackLinkPanel sessionId={session.id} hasLink={session.hasFeedbackLink} disabled={finished || !canControl} />
           <section className="panel text-sm">
             <h2 className="font-bold">Participant</h2>
             <p className="mt-1 text-haze">

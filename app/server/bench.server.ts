@@ -100,7 +100,10 @@ function toDeviceSettings(s: BenchSettings) {
 }
 
 export async function startBenchDevice(db: Database, config: Config, user: SessionUser, input: { sessionId: string; rateHz: number; seed?: number; settings: BenchSettings }) {
-  if (registry().has(input.sessionId)) throw new BenchError('A simulated device is already attached to this session. Stop it first.')
+  const previous = registry().get(input.sessionId)
+  // A device the server closed for good (session ended, token revoked) is only a record now.
+  if (previous && previous.device.state === 'stopped') registry().delete(input.sessionId)
+  else if (previous) throw new BenchError('A simulated device is already attached to this session. Stop it first.')
   const [row] = await db
     .select({ session: sessions, montage: montages, protocol: protocols })
     .from(sessions)

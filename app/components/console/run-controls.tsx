@@ -26,7 +26,7 @@ export function StatePill({ state }: { state: ConsoleState }) {
   )
 }
 
-export function RunControls({ defaultTrialsPerClass }: { defaultTrialsPerClass: number }) {
+export function RunControls({ defaultTrialsPerClass, canControl }: { defaultTrialsPerClass: number; canControl: boolean }) {
   const { sessionId } = useConsoleApi()
   const device = useConsole((s) => s.device)
   const run = useConsole((s) => s.run)
@@ -71,7 +71,8 @@ export function RunControls({ defaultTrialsPerClass }: { defaultTrialsPerClass: 
           Run {run.index} · {run.kind} · {run.status} · trial {Math.min(run.trialsDone + (run.status === 'running' ? 1 : 0), run.trialsTotal)} of {run.trialsTotal}
         </p>
       ) : null}
-      <div className="flex flex-wrap items-end gap-2">
+      {canControl ? null : <p className="text-sm text-haze">You are watching: run controls are the operator's.</p>}
+      <div className={`flex flex-wrap items-end gap-2 ${canControl ? '' : 'hidden'}`}>
         <label className="text-xs text-haze">
           Trials per class
           <input

@@ -29,7 +29,7 @@ export function FeedbackLinkPanel({ sessionId, hasLink, disabled }: { sessionId:
         {hasLink && !url ? (
           <fetcher.Form method="post">
             <input type="hidden" name="intent" value="revoke-feedback-link" />
-            <button type="submit" className="btn-danger" disabled={fetcher.state !== 'idle'}>
+            <button type="submit" className="btn-danger" disabled={disabled || fetcher.state !== 'idle'}>
               Withdraw link
             </button>
           </fetcher.Form>
