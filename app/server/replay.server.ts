@@ -19,9 +19,9 @@ import { chunkSamples, feedbackRunMetrics, secondsPerTrialOf, type RunMetrics, t
 /** Winner's share of a trial's decisions below which the trial is a timeout (as live scoring). */
 export const REPLAY_MIN_SHARE = 0.5
 /** Chunks read from the database per query. */
-const CHUNK_PAGE = 200
+const CHUNK_PAGE = 50
 /** Work between yields to the event loop, so a long replay never stalls other requests. */
-const YIELD_EVERY_MS = 20
+const YIELD_EVERY_MS = 2
 
 export class ReplayError extends Error {}
 

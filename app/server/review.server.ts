@@ -291,33 +291,43 @@ export interface ChannelQuality {
 /** Standard deviation limits for the per-channel summary (common practice; values from memory). */
 export const QUALITY_LIMITS = { flatBelowUv: 0.5, noisyAboveUv: 100 }
 
-/** Per-channel RMS (about the mean) and range of a sample-major float32 recording. */
-export function channelQuality(names: string[], blocks: Iterable<Float32Array>): ChannelQuality[] {
+/** Per-channel RMS (about the mean) and range, accumulated block by block (sample-major float32). */
+export function createQualityAccumulator(names: string[]) {
   const C = names.length
   const sum = new Float64Array(C)
   const sumSq = new Float64Array(C)
   const min = new Float64Array(C).fill(Infinity)
   const max = new Float64Array(C).fill(-Infinity)
   let n = 0
-  for (const block of blocks) {
-    const samples = Math.floor(block.length / C)
-    for (let s = 0; s < samples; s++) {
-      for (let c = 0; c < C; c++) {
-        const v = block[s * C + c]
-        sum[c] += v
-        sumSq[c] += v * v
-        if (v < min[c]) min[c] = v
-        if (v > max[c]) max[c] = v
+  return {
+    add(block: Float32Array): void {
+      const samples = Math.floor(block.length / C)
+      for (let s = 0; s < samples; s++) {
+        for (let c = 0; c < C; c++) {
+          const v = block[s * C + c]
+          sum[c] += v
+          sumSq[c] += v * v
+          if (v < min[c]) min[c] = v
+          if (v > max[c]) max[c] = v
+        }
       }
-    }
-    n += samples
+      n += samples
+    },
+    result(): ChannelQuality[] {
+      return names.map((name, c) => {
+        const mean = n ? sum[c] / n : 0
+        const rms = n ? Math.sqrt(Math.max(0, sumSq[c] / n - mean * mean)) : 0
+        const state = rms < QUALITY_LIMITS.flatBelowUv ? 'flat' : rms > QUALITY_LIMITS.noisyAboveUv ? 'noisy' : 'good'
+        return { name, rmsUv: rms, peakToPeakUv: n ? max[c] - min[c] : 0, state }
+      })
+    },
   }
-  return names.map((name, c) => {
-    const mean = n ? sum[c] / n : 0
-    const rms = n ? Math.sqrt(Math.max(0, sumSq[c] / n - mean * mean)) : 0
-    const state = rms < QUALITY_LIMITS.flatBelowUv ? 'flat' : rms > QUALITY_LIMITS.noisyAboveUv ? 'noisy' : 'good'
-    return { name, rmsUv: rms, peakToPeakUv: n ? max[c] - min[c] : 0, state }
-  })
+}
+
+export function channelQuality(names: string[], blocks: Iterable<Float32Array>): ChannelQuality[] {
+  const acc = createQualityAccumulator(names)
+  for (const block of blocks) acc.add(block)
+  return acc.result()
 }
 
 /** The float32 samples of a stored chunk (bytea, little-endian), without copying when aligned. */
@@ -343,12 +353,13 @@ async function runQuality(db: Database, run: { id: string; channels: string[] | 
   // Long runs: an even spread of chunks within the budget, so the page stays fast.
   const stride = Math.max(1, Math.ceil(values / QUALITY_VALUE_BUDGET))
   const picked = chunks.filter((_, i) => i % stride === 0).map((c) => c.id)
-  const blocks: Float32Array[] = []
-  for (let i = 0; i < picked.length; i += 200) {
-    const rows = await db.select({ data: recordingChunks.data }).from(recordingChunks).where(inArray(recordingChunks.id, picked.slice(i, i + 200)))
-    for (const r of rows) blocks.push(chunkSamples(r.data))
+  // Small pages: the database round trip between them lets the event loop serve ingest and streams.
+  const acc = createQualityAccumulator(run.channels)
+  for (let i = 0; i < picked.length; i += 40) {
+    const rows = await db.select({ data: recordingChunks.data }).from(recordingChunks).where(inArray(recordingChunks.id, picked.slice(i, i + 40)))
+    for (const r of rows) acc.add(chunkSamples(r.data))
   }
-  return channelQuality(run.channels, blocks)
+  return acc.result()
 }
 
 /** At most this many points of the classifier output go to the timeline of one run. */
@@ -390,13 +401,30 @@ export async function sessionReview(db: Database, sessionId: string) {
       .filter((t) => t.runId === run.id)
       .map((t) => ({ index: t.index, label: t.label, cueSample: t.cueSample, endSample: t.endSample, outcome: t.outcome, decidedClass: t.decidedClass }))
     const decoder = decoderRows.find((d) => d.id === run.decoderId) ?? null
-    const decisionRows = await db
-      .select({ sample: decisions.sample, output: decisions.output, decidedClass: decisions.decidedClass, latencyUs: decisions.latencyUs })
+    // PGlite answers on this thread: let ingest and streams run between the queries of a review.
+    await new Promise((resolve) => setImmediate(resolve))
+    const [{ n: decisionCount }] = await db.select({ n: count() }).from(decisions).where(eq(decisions.runId, run.id))
+    const stride = Math.max(1, Math.ceil(decisionCount / TIMELINE_POINTS))
+    // The timeline is thinned in the database, so a long log never crosses over whole.
+    const numbered = db
+      .select({
+        sample: decisions.sample,
+        output: decisions.output,
+        decidedClass: decisions.decidedClass,
+        position: sql<number>`row_number() over (order by ${decisions.sample}) - 1`.as('position'),
+      })
       .from(decisions)
       .where(eq(decisions.runId, run.id))
-      .orderBy(asc(decisions.sample))
-    const stride = Math.max(1, Math.ceil(decisionRows.length / TIMELINE_POINTS))
-    const shown = decisionRows.filter((_, i) => i % stride === 0)
+      .as('numbered')
+    const shown = decisionCount
+      ? await db
+          .select({ sample: numbered.sample, output: numbered.output, decidedClass: numbered.decidedClass })
+          .from(numbered)
+          .where(sql`${numbered.position} % ${stride} = 0`)
+          .orderBy(asc(numbered.sample))
+      : []
+    await new Promise((resolve) => setImmediate(resolve))
+    const latencyRows = decisionCount ? await db.select({ latencyUs: decisions.latencyUs }).from(decisions).where(eq(decisions.runId, run.id)) : []
     const classes = protocol.classes
     const secondsPerTrial = secondsPerTrialOf(runTrials, run.rateHz, protocol)
     runsOut.push({
@@ -413,13 +441,13 @@ export async function sessionReview(db: Database, sessionId: string) {
       decoder: decoder ? { id: decoder.id, version: decoder.version, method: decoder.method, cvAccuracy: decoder.cvAccuracy } : null,
       trials: runTrials,
       metrics: run.kind === 'feedback' ? feedbackRunMetrics(classes, runTrials, secondsPerTrial) : null,
-      decisionCount: decisionRows.length,
+      decisionCount,
       timeline: {
         sample: shown.map((d) => d.sample),
         output: shown.map((d) => d.output),
         decided: shown.map((d) => classes.indexOf(d.decidedClass)),
       },
-      latency: latencySummary(decisionRows.map((d) => d.latencyUs)),
+      latency: latencySummary(latencyRows.map((d) => d.latencyUs)),
       quality: await runQuality(db, run),
     })
   }
