@@ -15,6 +15,7 @@ import { createMailService } from './app/server/mail.server.ts'
 import { isCrossSiteWrite, securityHeaders, setTrustedHeader } from './app/server/http-security.server.ts'
 import type { Services } from './app/server/services.ts'
 import { createLiveServices } from './app/live/index.server.ts'
+import { startWeeklyDigestSchedule } from './app/server/reports.server.ts'
 
 const NONCE_HEADER = 'x-tiller-csp-nonce'
 const CLIENT_IP_HEADER = 'x-tiller-client-ip'
@@ -47,6 +48,7 @@ async function main() {
   const live = await createLiveServices({ db: database.db, config })
 
   const services: Services = { config, db: database.db, dbKind: database.kind, mail: mail.mailer, live }
+  const digest = startWeeklyDigestSchedule(services)
 
   // The HTTP server exists before Vite so that Vite's HMR socket can share it.
   const server = createServer()
@@ -131,6 +133,7 @@ async function main() {
     server.close()
     server.closeAllConnections?.()
     try {
+      digest.stop()
       await live.close()
       await mail.close()
       await vite?.close()

@@ -15,7 +15,7 @@ export async function loader({ request, context }: Route.LoaderArgs) {
   const mine = me
     ? await db.select({ id: sessions.id, status: sessions.status, createdAt: sessions.createdAt }).from(sessions).where(eq(sessions.participantId, me.id)).orderBy(desc(sessions.createdAt))
     : []
-  return { code: me?.code ?? null, sessions: mine.map((s) => ({ ...s, createdAt: s.createdAt.toISOString() })) }
+  return { code: me?.code ?? null, participantId: me?.id ?? null, sessions: mine.map((s) => ({ ...s, createdAt: s.createdAt.toISOString() })) }
 }
 
 export default function Me({ loaderData }: Route.ComponentProps) {
@@ -28,6 +28,13 @@ export default function Me({ loaderData }: Route.ComponentProps) {
         <Link to={`/feedback/${live.id}`} className="mt-6 inline-block rounded-md bg-navy px-5 py-3 text-lg font-medium text-paper">
           Open the feedback view for today’s session
         </Link>
+      ) : null}
+      {loaderData.participantId ? (
+        <p className="mt-6">
+          <Link to={`/review/participants/${loaderData.participantId}`} className="text-lg underline">
+            See your accuracy across sessions
+          </Link>
+        </p>
       ) : null}
       <ul className="mt-8 space-y-2">
         {loaderData.sessions.length === 0 ? <li>No sessions yet.</li> : null}
