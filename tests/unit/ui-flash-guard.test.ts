@@ -39,7 +39,7 @@ describe('flash guard (WCAG 2.3.1)', () => {
   it('lets a change through at once when the screen has been still', () => {
     const c = fakeClock()
     const shown: string[] = []
-    const g = createFlashGuard('a', (v) => shown.push(v), Object.is, c.deps)
+    const g = createFlashGuard<string>('a', (v) => shown.push(v), Object.is, c.deps)
     expect(g.request('b')).toBe(true)
     expect(shown).toEqual(['b'])
   })
@@ -47,7 +47,7 @@ describe('flash guard (WCAG 2.3.1)', () => {
   it('never shows more than three changes in any one-second window, whatever is asked', () => {
     const c = fakeClock()
     const times: number[] = []
-    const g = createFlashGuard(0, () => times.push(c.now()), Object.is, c.deps)
+    const g = createFlashGuard<number>(0, () => times.push(c.now()), Object.is, c.deps)
     // 60 changes a second for three seconds: an alternating screen would flash 30 times a second.
     for (let i = 1; i <= 180; i++) {
       g.request(i % 2)
@@ -62,7 +62,7 @@ describe('flash guard (WCAG 2.3.1)', () => {
   it('shows the latest state after a burst, not a queue of stale ones', () => {
     const c = fakeClock()
     const shown: string[] = []
-    const g = createFlashGuard('waiting', (v) => shown.push(v), Object.is, c.deps)
+    const g = createFlashGuard<string>('waiting', (v) => shown.push(v), Object.is, c.deps)
     g.request('fixation')
     c.advance(10)
     g.request('cue:left')
@@ -76,7 +76,7 @@ describe('flash guard (WCAG 2.3.1)', () => {
   it('drops a held change when the screen goes back to what is shown', () => {
     const c = fakeClock()
     const shown: string[] = []
-    const g = createFlashGuard('a', (v) => shown.push(v), Object.is, c.deps)
+    const g = createFlashGuard<string>('a', (v) => shown.push(v), Object.is, c.deps)
     g.request('b')
     g.request('c')
     g.request('b')
