@@ -7,6 +7,7 @@ import { z } from 'zod'
 import type { Database } from '~/db/client.server'
 import { annotations, auditEvents, type MontageChannel, decisions, decoders, montages, participants, protocols, recordingChunks, runs, sessionEvents, sessions, trials, users } from '~/db/schema'
 import type { SessionUser } from '~/server/services'
+import { isUuid } from '~/server/records.server'
 import type { ComparisonRow, Decoder } from '~/engine/decoder'
 import { positionFor } from '~/engine/montage'
 import type { Recording } from '~/engine/recording'
@@ -587,6 +588,7 @@ export interface ProgressPoint {
 }
 
 export async function participantProgress(db: Database, labId: string, participantId: string) {
+  if (!isUuid(participantId)) return null
   const [participant] = await db.select().from(participants).where(and(eq(participants.id, participantId), eq(participants.labId, labId)))
   if (!participant) return null
   const sessionRows = await db
@@ -715,6 +717,7 @@ export function componentSpectra(decoder: Decoder, recording: Recording, maxHz =
 }
 
 export async function decoderReview(db: Database, labId: string, decoderId: string, loadRecording: (runId: string) => Promise<Recording>) {
+  if (!isUuid(decoderId)) return null
   const [row] = await db
     .select({ decoder: decoders, participantCode: participants.code })
     .from(decoders)
