@@ -7,7 +7,7 @@ export default defineConfig({
   test: {
     environment: 'node',
     include: ['tests/**/*.test.ts'],
-    exclude: ['tests/e2e/**', 'node_modules/**'],
+    exclude: ['tests/e2e/**', 'tests/postgres/**', 'node_modules/**'],
     testTimeout: 60_000,
     hookTimeout: 60_000,
     pool: 'forks',

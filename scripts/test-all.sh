@@ -33,8 +33,17 @@ node scripts/audit-deps.mjs
 echo "== production build"
 npx react-router build >/dev/null
 
+# Suites that measure decision latency or kill and restart servers run one file at a time
+# after the rest, so that other test files do not compete with them for the two cores.
+timed=(tests/unit/ingest-violations.test.ts tests/unit/soak-short.test.ts tests/unit/crash-restart.test.ts)
+excludes=()
+for f in "${timed[@]}"; do excludes+=(--exclude "$f"); done
+
 echo "== unit and integration tests (vitest, PGlite)"
-npx vitest run
+npx vitest run "${excludes[@]}"
+
+echo "== load, fault and latency suites (one file at a time)"
+npx vitest run --no-file-parallelism "${timed[@]}"
 
 echo "== the same migrations and queries on a PostgreSQL server"
 bash scripts/with-postgres.sh npx vitest run --config vitest.postgres.config.ts
