@@ -54,7 +54,7 @@ export function ensureProductionBuild(): void {
 }
 
 export function seedDemoInto(dataDir: string, env: Record<string, string> = {}): void {
-  const r = spawnSync('node', ['bin/tiller.js', 'demo'], {
+  const r = spawnSync('node', ['bin/tiller.js', 'demo', '--no-sessions'], {
     cwd: ROOT,
     encoding: 'utf8',
     timeout: 60_000,
