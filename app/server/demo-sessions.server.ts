@@ -49,7 +49,7 @@ async function storeRecording(db: Database, runId: string, recording: Recording)
 export async function seedReviewSession(
   db: Database,
   labId: string,
-  options: { participantCode?: string; seed?: number; trialsPerClass?: number; startedAt?: Date } = {},
+  options: { participantCode?: string; seed?: number; trialsPerClass?: number; startedAt?: Date; erdDepth?: number } = {},
 ): Promise<SeededSession> {
   const seed = options.seed ?? 7
   const trialsPerClass = options.trialsPerClass ?? 15
@@ -63,7 +63,7 @@ export async function seedReviewSession(
 
   // One simulated participant for both runs (the seed fixes the head model): the first half of
   // the trials is the calibration run, the second half the feedback run.
-  const whole = simulateRecording({ channels: channelNames, rateHz: SEED_RATE_HZ, seed, classes: protocol.classes, trialsPerClass: trialsPerClass * 2, participant: { skill: 0.9 } }).recording
+  const whole = simulateRecording({ channels: channelNames, rateHz: SEED_RATE_HZ, seed, classes: protocol.classes, trialsPerClass: trialsPerClass * 2, participant: options.erdDepth === undefined ? { skill: 0.9 } : { skill: 0.9, erdDepth: options.erdDepth } }).recording
   const half = whole.cues[whole.cues.length / 2].sample - 2 * SEED_RATE_HZ
   const slice = (from: number, to: number): Recording => ({
     ...whole,

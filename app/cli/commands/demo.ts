@@ -16,8 +16,8 @@ export async function run(args: string[]): Promise<number> {
     if (created && !args.includes('--no-sessions')) {
       // Two finished sessions of a simulated participant, so review, replay and progress have
       // something to show on first start.
-      await seedReviewSession(handle.db, labId, { seed: 21, trialsPerClass: 12, startedAt: new Date('2026-11-03T09:00:00Z') })
-      await seedReviewSession(handle.db, labId, { seed: 22, trialsPerClass: 12, startedAt: new Date('2026-11-10T09:00:00Z') })
+      await seedReviewSession(handle.db, labId, { seed: 21, trialsPerClass: 15, erdDepth: 0.4, startedAt: new Date('2026-11-03T09:00:00Z') })
+      await seedReviewSession(handle.db, labId, { seed: 22, trialsPerClass: 15, erdDepth: 0.5, startedAt: new Date('2026-11-10T09:00:00Z') })
       console.log('Added two finished demo sessions of participant HS-014 (simulated signals).')
     }
     console.log('\nDemo sign-in accounts (invented people; for the demo only):')
