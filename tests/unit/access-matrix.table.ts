@@ -146,7 +146,9 @@ export const ACCESS_TABLE: Record<string, RouteAccess> = {
   },
   'review.sessions.$sessionId_.replay.ts': { loader: { allow: STAFF } },
   'sessions.$sessionId.console.tsx': { loader: { allow: STAFF } },
-  'sessions.$sessionId.tsx': { loader: { allow: STAFF }, action: { allow: STAFF } },
+  // Device tokens and feedback links are handed out by the people who run sessions; a
+  // supervisor watches and reviews (refused by role before any lookup, so 403 everywhere).
+  'sessions.$sessionId.tsx': { loader: { allow: STAFF }, action: { allow: ['operator', 'developer'] } },
   'sessions._index.tsx': { loader: { allow: STAFF } },
   'sessions.new.tsx': { loader: { allow: LAB_EDITORS }, action: { allow: LAB_EDITORS } },
   'sign-in.tsx': { loader: PUBLIC, action: PUBLIC },
