@@ -7,6 +7,7 @@ import { FAULT_KINDS, type FaultSettings } from './faults'
 import { DEFAULT_ARTIFACTS, NO_ARTIFACTS, type ArtifactSettings, type RhythmSettings } from './generator'
 import type { ParticipantSettings } from './participant'
 import type { TrialTiming } from './schedule'
+import { readFlags } from '../app/lib/cli-flags'
 
 export const SIMULATE_USAGE = `usage:
   tiller simulate --out FILE [--format edf|bdf|csv] [--channels N | --montage NAME|FILE.csv]
@@ -134,14 +135,7 @@ export function parseSimulateArgs(args: readonly string[]): SimulateArgs {
   }
   let channelCount: number | undefined
   let montage: ChannelPosition[] | undefined
-  for (let i = 0; i < args.length; i++) {
-    const arg = args[i]
-    const [flag, inline] = arg.startsWith('--') && arg.includes('=') ? [arg.slice(0, arg.indexOf('=')), arg.slice(arg.indexOf('=') + 1)] : [arg, undefined]
-    const value = (): string => {
-      const v = inline ?? args[++i]
-      if (v === undefined) throw new Error(`${flag} needs a value`)
-      return v
-    }
+  readFlags(args, (flag, value, arg) => {
     switch (flag) {
       case '--help': case '-h': out.help = true; break
       case '--out': out.out = value(); break
@@ -197,7 +191,7 @@ export function parseSimulateArgs(args: readonly string[]): SimulateArgs {
       case '--faults': out.faults = { ...out.faults, ...parseFaults(value()) }; break
       default: throw new Error(`unknown option '${arg}'. Run 'tiller simulate --help'.`)
     }
-  }
+  })
   if (out.help) return out
   if (channelCount !== undefined && montage) throw new Error('give --channels or --montage, not both')
   out.channels = montage ?? sensorimotorChannels(channelCount ?? 22)

@@ -2,6 +2,7 @@
 // the commands read the files; this turns words into validated options with clear errors.
 import type { TrainOptions } from './decoder'
 import { SPATIAL_METHODS, type SpatialMethodName } from './spatial/types'
+import { readFlags } from '../lib/cli-flags'
 
 export interface EngineCliArgs {
   file: string
@@ -40,14 +41,7 @@ const list = (value: string) => value.split(',').map((s) => s.trim()).filter(Boo
 export function parseEngineArgs(args: string[], command: 'train' | 'compare'): EngineCliArgs {
   const out: EngineCliArgs = { file: '', json: false, help: false, options: {} }
   const files: string[] = []
-  for (let i = 0; i < args.length; i++) {
-    const arg = args[i]
-    const [flag, inline] = arg.startsWith('--') && arg.includes('=') ? [arg.slice(0, arg.indexOf('=')), arg.slice(arg.indexOf('=') + 1)] : [arg, undefined]
-    const value = (): string => {
-      const v = inline ?? args[++i]
-      if (v === undefined) throw new Error(`${flag} needs a value`)
-      return v
-    }
+  readFlags(args, (flag, value, arg) => {
     switch (flag) {
       case '--json': out.json = true; break
       case '--help': case '-h': out.help = true; break
@@ -77,7 +71,7 @@ export function parseEngineArgs(args: string[], command: 'train' | 'compare'): E
         if (flag.startsWith('-')) throw new Error(`unknown option '${flag}'`)
         files.push(arg)
     }
-  }
+  })
   if (!out.help) {
     if (files.length !== 1) throw new Error(files.length === 0 ? 'give one recording file (EDF, EDF+, BDF or CSV)' : `give one recording file, got ${files.length}`)
     out.file = files[0]
