@@ -138,6 +138,8 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
     if (url.pathname === '/setup') return send({ sessions: setup, channels: names })
     if (url.pathname === '/start') {
       for (const s of setup) await live.startRun(s.sessionId, { kind: 'feedback' }, null)
+      await live.flush()
+      live.resetPeaks()
       cpuStart = process.cpuUsage()
       eluStart = performance.eventLoopUtilization()
       loopDelay.reset()

@@ -352,6 +352,10 @@ export async function createLiveServices(deps: LiveDeps) {
         sessions: live.size,
       }
     },
+    /** Starts the writer's peak figures afresh (the bench measures from its start signal). */
+    resetPeaks(): void {
+      writer.stats.maxFlushMs = 0
+    },
     /** Writes everything queued now (tests, and before a backup). */
     flush(): Promise<void> {
       return writer.flush()

@@ -508,7 +508,7 @@ export class LiveSession {
     // Results still in the worker belong to this run; let them land before the final flush.
     await this.waitForPipeline(500)
     await this.ctx.writer.flush()
-    const endedAt = new Date()
+    const endedAt = run.endedAt ?? new Date()
     const latency = this.latencyPercentiles()
     await this.ctx.db
       .update(runs)
@@ -626,7 +626,7 @@ export class LiveSession {
       misses: run.misses,
       timeouts: run.timeouts,
       startedAt: run.startedAt.toISOString(),
-      endedAt: run.active ? null : new Date().toISOString(),
+      endedAt: run.endedAt?.toISOString() ?? null,
       decoderId: run.decoderId,
     }
   }

@@ -143,9 +143,12 @@ export class RunState {
     this.nextStartAt = atSample
   }
 
+  endedAt: Date | null = null
+
   end(status: 'stopped' | 'completed' | 'interrupted'): void {
     this.abandonCurrent(false)
     this.status = status
+    this.endedAt = new Date()
   }
 
   private abandonCurrent(requeue = true): void {
