@@ -197,3 +197,52 @@ describe('wire format worked example (docs/ingest-protocol.md)', () => {
     expect(Array.from(decoded.samples)).toEqual(example.samples.flat())
   })
 })
+
+describe('session pipeline (inside a decoding worker)', () => {
+  test('decision rate: one per block, or at most one per N ms of signal; control is the smoothed tanh(score/2)', async () => {
+    const { SessionPipeline } = await import('~/live/session-pipeline')
+    const { createOnlineDecoder } = await import('~/engine/online')
+    const { trainDecoder } = await import('~/engine/decoder')
+    const { simulateImagery } = await import('~/engine/synthetic')
+    const { recording } = simulateImagery({ rows: 2, cols: 2, rateHz: 500, trialsPerClass: 10, seed: 4 })
+    const decoder = trainDecoder(recording, { method: 'car', windowSeconds: 0.2 })
+    const C = recording.channels.length
+    const block = (b: number) => {
+      const out = new Float32Array(16 * C)
+      for (let s = 0; s < 16; s++) for (let c = 0; c < C; c++) out[s * C + c] = recording.data[c][b * 16 + s]
+      return out
+    }
+    const perBlock = new SessionPipeline('s', recording.channels, 500, [8, 30], 125, { decisionEveryMs: 0, smoothing: 0 })
+    perBlock.setDecoder(decoder)
+    const every100 = new SessionPipeline('s', recording.channels, 500, [8, 30], 125, { decisionEveryMs: 100, smoothing: 0 })
+    every100.setDecoder(decoder)
+    const smoothed = new SessionPipeline('s', recording.channels, 500, [8, 30], 125, { decisionEveryMs: 0, smoothing: 0.8 })
+    smoothed.setDecoder(decoder)
+    const reference = createOnlineDecoder(decoder)
+    let a = 0
+    let b = 0
+    let control = 0
+    for (let i = 0; i < 100; i++) {
+      const samples = block(i)
+      const ref = reference.push(samples, 16)
+      const d1 = perBlock.push(i * 16, samples, 16, true)
+      const d2 = every100.push(i * 16, samples, 16, true)
+      const d3 = smoothed.push(i * 16, samples, 16, true)
+      if (!ref.ready) {
+        expect(d1).toBeNull()
+        continue
+      }
+      a += d1 ? 1 : 0
+      b += d2 ? 1 : 0
+      expect(d1!.output).toBe(ref.output)
+      expect(d1!.control).toBeCloseTo(Math.tanh(ref.output / 2), 12)
+      // Exponential smoothing: y = a·y + (1 − a)·x with a = 0.8.
+      control = 0.8 * control + 0.2 * Math.tanh(ref.output / 2)
+      expect(d3!.control).toBeCloseTo(control, 12)
+    }
+    // 100 ms at 500 Hz = 50 samples: one decision per 4 blocks of 16 samples (64 samples).
+    expect(a).toBe(100 - Math.ceil(decoder.windowSeconds * 500 / 16) + 1)
+    expect(b).toBeGreaterThanOrEqual(Math.floor(a / 4))
+    expect(b).toBeLessThanOrEqual(Math.ceil(a / 4) + 1)
+  })
+})
