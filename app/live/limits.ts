@@ -54,7 +54,7 @@ export const DEFAULT_LIMITS: LiveLimits = {
   pingIntervalMs: 5_000,
   flushIntervalMs: 50,
   sseRingSize: 4_096,
-  sseRingBytes: 4 * 1024 * 1024,
+  sseRingBytes: 1024 * 1024,
   idleSessionMs: 10 * 60_000,
   sseClientQueue: 1_024,
   displayRateHz: 125,
