@@ -4,7 +4,8 @@
 import { mkdirSync } from 'node:fs'
 import { dirname, resolve } from 'node:path'
 import { fileURLToPath } from 'node:url'
-import { PGlite } from '@electric-sql/pglite'
+import type { PGlite } from '@electric-sql/pglite'
+import { openPgliteThread } from './pglite-thread.server.ts'
 import type { PgDatabase, PgQueryResultHKT } from 'drizzle-orm/pg-core'
 import { drizzle as drizzlePglite } from 'drizzle-orm/pglite'
 import { migrate as migratePglite } from 'drizzle-orm/pglite/migrator'
@@ -40,17 +41,16 @@ export async function openDatabase(location: string): Promise<DatabaseHandle> {
       close: () => pool.end(),
     }
   }
-  let client: PGlite
-  if (location === 'memory://' || location === '') {
-    client = new PGlite()
-  } else {
-    const dir = resolve(location)
+  let dir: string | null = null
+  if (location !== 'memory://' && location !== '') {
+    dir = resolve(location)
     // PGlite creates only the last path segment itself.
     mkdirSync(dirname(dir), { recursive: true })
-    client = new PGlite(dir)
   }
-  await client.waitReady
-  const db = drizzlePglite(client, { schema }) as unknown as Database
+  // PGlite runs queries synchronously in WebAssembly; on its own thread a heavy review query
+  // cannot stall the ingest, the SSE streams or anything else on the main event loop.
+  const client = await openPgliteThread(dir)
+  const db = drizzlePglite(client as unknown as PGlite, { schema }) as unknown as Database
   return {
     db,
     kind: 'pglite',
