@@ -15,7 +15,7 @@ import { createMailService } from './app/server/mail.server.ts'
 import { isCrossSiteWrite, securityHeaders, setTrustedHeader } from './app/server/http-security.server.ts'
 import type { Services } from './app/server/services.ts'
 import { createLiveServices } from './app/live/index.server.ts'
-import { startWeeklyDigestSchedule } from './app/server/reports.server.ts'
+import { sendRunSummary, startWeeklyDigestSchedule } from './app/server/reports.server.ts'
 
 const NONCE_HEADER = 'x-tiller-csp-nonce'
 const CLIENT_IP_HEADER = 'x-tiller-client-ip'
@@ -45,7 +45,12 @@ async function main() {
   const mail = await createMailService(config, database.db)
   if (mail.fakeSmtpPort) log('info', 'mail.local-outbox', { port: mail.fakeSmtpPort, message: 'SMTP_URL not set: e-mail goes to the outbox page' })
 
-  const live = await createLiveServices({ db: database.db, config })
+  const live = await createLiveServices({
+    db: database.db,
+    config,
+    // The supervisors' run summary e-mail; it never throws, and decoding never waits for it.
+    onRunEnded: (runId) => void sendRunSummary({ db: database.db, mail: mail.mailer, config }, runId),
+  })
 
   const services: Services = { config, db: database.db, dbKind: database.kind, mail: mail.mailer, live }
   const digest = startWeeklyDigestSchedule(services)

@@ -31,6 +31,8 @@ export interface LiveDeps {
   config: Config
   limits?: Partial<LiveLimits>
   log?: LogFn
+  /** Called once a run has ended and everything it logged is durable (e.g. the summary e-mail). */
+  onRunEnded?: (runId: string, status: 'stopped' | 'completed' | 'interrupted') => void
 }
 
 function defaultLog(level: 'info' | 'warn' | 'error', event: string, fields: Record<string, unknown>) {
@@ -66,7 +68,7 @@ export async function createLiveServices(deps: LiveDeps) {
   await pool.ready()
 
   const live = new Map<string, Promise<LiveSession | null>>()
-  const ctx = { db, writer, pool, limits, log }
+  const ctx = { db, writer, pool, limits, log, onRunEnded: deps.onRunEnded }
 
   async function loadSession(sessionId: string): Promise<LiveSession | null> {
     const [row] = await db

@@ -96,6 +96,7 @@ interface Context {
   pool: PipelinePool
   limits: LiveLimits
   log: (level: 'info' | 'warn' | 'error', event: string, fields: Record<string, unknown>) => void
+  onRunEnded?: (runId: string, status: 'stopped' | 'completed' | 'interrupted') => void
 }
 
 const LATENCY_WINDOW = 2048
@@ -539,6 +540,7 @@ export class LiveSession {
     this.link?.send({ type: 'run', runId: run.id, kind: run.kind, state: status })
     this.publishRun()
     await this.ctx.writer.flush()
+    this.ctx.onRunEnded?.(run.id, status)
     return this.runInfo()!
   }
 
