@@ -250,6 +250,12 @@ test('an operator runs a complete session with the simulator; the participant fo
   }
   expect(worst).toBeLessThanOrEqual(3)
 
+  // --- each ended run sent the supervisors its summary e-mail (local outbox) ---
+  const reviewer = await signedIn(browser, 'supervisor')
+  await reviewer.goto('/outbox')
+  await expect(reviewer.getByText(/HS-\d+/).first()).toBeVisible()
+  expect(await reviewer.locator("body").innerText()).toMatch(/\(feedback\) of HS-/)
+
   await developer.goto(`/bench?session=${sessionId}`)
   await keep(developer, 'bench')
   if (await developer.getByRole('button', { name: 'Stop device' }).isVisible()) await developer.getByRole('button', { name: 'Stop device' }).click()
