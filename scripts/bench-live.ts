@@ -54,7 +54,8 @@ function parseArgs(argv: string[]): Args {
     port: Number(get('--port') ?? 4250),
     serve: argv.includes('--serve'),
     sender: get('--sender') === 'simulator' ? 'simulator' : 'synthetic',
-    db: get('--db') === 'thread' ? ['thread'] : get('--db') === 'main' ? ['main'] : get('--db') === 'both' ? ['main', 'thread'] : ['main'],
+    // The database always runs on its own thread now, as in server.ts.
+    db: ['thread'],
   }
 }
 
@@ -73,19 +74,11 @@ async function serve(port: number, devices: number, dbMode: 'main' | 'thread'): 
   const { trainDecoder } = await import('../app/engine/decoder.ts')
   const { simulateImagery } = await import('../app/engine/synthetic.ts')
 
-  let db: import('../app/db/client.server.ts').Database
-  if (dbMode === 'thread') {
-    const { drizzle } = await import('drizzle-orm/pglite')
-    const { migrate } = await import('drizzle-orm/pglite/migrator')
-    const { openPgliteThread } = await import('../app/db/pglite-thread.server.ts')
-    const { migrationsFolder } = await import('../app/db/client.server.ts')
-    db = drizzle((await openPgliteThread(null)) as never, { schema }) as never
-    await migrate(db as never, { migrationsFolder })
-  } else {
-    const handle = await openDatabase('memory://')
-    await handle.migrate()
-    db = handle.db
-  }
+  // The same opener as server.ts: PGlite on its own thread (docs/decisions/001-live-decoding.md).
+  void dbMode
+  const handle = await openDatabase('memory://')
+  await handle.migrate()
+  const db = handle.db
   const { labId } = await seedDemo(db)
   const config = loadConfig({ NODE_ENV: 'production', SESSION_SECRET: 'bench-secret-bench-secret-bench-secret', PORT: String(port) })
   const live = await createLiveServices({ db, config, log: () => undefined })
