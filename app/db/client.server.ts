@@ -25,13 +25,18 @@ export interface DatabaseHandle {
   close(): Promise<void>
 }
 
+/** True for a PostgreSQL server URL (postgres:// or postgresql://), false for PGlite locations. */
+export function isPostgresUrl(location: string): boolean {
+  return /^postgres(ql)?:\/\//.test(location)
+}
+
 export const migrationsFolder = resolve(dirname(fileURLToPath(import.meta.url)), '../../drizzle')
 
 /**
  * @param location 'memory://', a directory path for PGlite, or a postgres:// URL.
  */
 export async function openDatabase(location: string): Promise<DatabaseHandle> {
-  if (/^postgres(ql)?:\/\//.test(location)) {
+  if (isPostgresUrl(location)) {
     const pool = new pg.Pool({ connectionString: location, max: 10 })
     const db = drizzlePg(pool, { schema }) as unknown as Database
     return {

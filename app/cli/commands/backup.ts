@@ -2,6 +2,7 @@
 import { parseArgs } from 'node:util'
 import { BackupError, backupPglite, backupPostgres } from '~/server/backup.server'
 import { loadConfig } from '~/server/config.server'
+import { isPostgresUrl } from '~/db/client.server'
 
 export const summary = 'copy the database to a file: `tiller backup <file> [--force]` (PGlite: stop the server first)'
 
@@ -19,7 +20,7 @@ export async function run(args: string[]): Promise<number> {
   const [file] = positionals
   const config = loadConfig()
   try {
-    if (/^postgres(ql)?:\/\//.test(config.databaseLocation)) {
+    if (isPostgresUrl(config.databaseLocation)) {
       backupPostgres(config.databaseLocation, file)
       console.log(`backup written: ${file} (pg_dump custom format; restore with tiller restore ${file})`)
       return 0

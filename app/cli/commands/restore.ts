@@ -2,6 +2,7 @@
 import { parseArgs } from 'node:util'
 import { BackupError, restorePglite, restorePostgres } from '~/server/backup.server'
 import { loadConfig } from '~/server/config.server'
+import { isPostgresUrl } from '~/db/client.server'
 
 export const summary = 'restore a `tiller backup` file: `tiller restore <file> [--force]` (server stopped)'
 
@@ -21,7 +22,7 @@ export async function run(args: string[]): Promise<number> {
   const [file] = positionals
   const config = loadConfig()
   try {
-    if (/^postgres(ql)?:\/\//.test(config.databaseLocation)) {
+    if (isPostgresUrl(config.databaseLocation)) {
       restorePostgres(file, config.databaseLocation)
       console.log(`restored ${file} into the PostgreSQL database`)
       return 0
