@@ -280,8 +280,8 @@ export async function createLiveServices(deps: LiveDeps) {
       const session = await requireSession(sessionId)
       return trainableRuns(db, session.setup.participantId, session.setup.labId)
     },
-    trainingJob(jobId: string): TrainingInfo | undefined {
-      return training.get(jobId)
+    trainingJob(sessionId: string, jobId: string): TrainingInfo | undefined {
+      return training.get(jobId, sessionId)
     },
     waitForTraining(jobId: string, timeoutMs?: number): Promise<TrainingInfo> {
       return training.wait(jobId, timeoutMs)

@@ -101,7 +101,9 @@ export class TrainingJobs {
     private readonly publish: (sessionId: string, info: TrainingInfo) => void,
   ) {}
 
-  get(jobId: string): TrainingInfo | undefined {
+  /** The job, only when it belongs to the session asked about (ids are not a credential). */
+  get(jobId: string, sessionId: string): TrainingInfo | undefined {
+    if (this.jobSessions.get(jobId) !== sessionId) return undefined
     return this.jobs.get(jobId)
   }
 

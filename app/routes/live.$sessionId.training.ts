@@ -18,7 +18,7 @@ export async function loader({ request, context, params }: LoaderFunctionArgs) {
   const session = await requireSessionAccess(context, user, params.sessionId!)
   const jobId = new URL(request.url).searchParams.get('jobId')
   if (!jobId) return answer(async () => ({ runs: await context.services.live.trainableRuns(session.id) }))
-  const job = context.services.live.trainingJob(jobId)
+  const job = context.services.live.trainingJob(session.id, jobId)
   if (!job) return Response.json({ ok: false, message: 'no such training job' }, { status: 404 })
   return Response.json(job)
 }
