@@ -58,7 +58,7 @@ export function DeviceTokensPanel({ tokens, disabled }: { tokens: Token[]; disab
                   {t.lastUsedAt ? `last used ${new Date(t.lastUsedAt).toLocaleString('en-GB')}` : 'not used yet'} · expires {new Date(t.expiresAt).toLocaleString('en-GB')}
                 </span>
               </span>
-              {t.state === 'active' ? (
+              {t.state === 'active' && !disabled ? (
                 <revoke.Form method="post">
                   <input type="hidden" name="intent" value="revoke-token" />
                   <input type="hidden" name="tokenId" value={t.id} />
