@@ -113,6 +113,14 @@ export async function createLiveServices(deps: LiveDeps) {
     return new LiveSession(ctx, setup)
   }
 
+  /** Pause, resume or stop the session's run, audited as run.<action>. */
+  async function controlRun(sessionId: string, user: SessionUser | null, action: 'pause' | 'resume' | 'stop'): Promise<RunInfo> {
+    const session = await requireSession(sessionId)
+    const run = action === 'pause' ? await session.pauseRun() : action === 'resume' ? await session.resumeRun() : await session.stopRun()
+    await auditAction(user, `run.${action}`, run.id, { sessionId })
+    return run
+  }
+
   function getSession(sessionId: string): Promise<LiveSession | null> {
     let entry = live.get(sessionId)
     if (!entry) {
@@ -193,21 +201,9 @@ export async function createLiveServices(deps: LiveDeps) {
       await auditAction(user, 'run.start', run.id, { sessionId, kind: run.kind })
       return run
     },
-    async pauseRun(sessionId: string, user: SessionUser | null): Promise<RunInfo> {
-      const run = await (await requireSession(sessionId)).pauseRun()
-      await auditAction(user, 'run.pause', run.id, { sessionId })
-      return run
-    },
-    async resumeRun(sessionId: string, user: SessionUser | null): Promise<RunInfo> {
-      const run = await (await requireSession(sessionId)).resumeRun()
-      await auditAction(user, 'run.resume', run.id, { sessionId })
-      return run
-    },
-    async stopRun(sessionId: string, user: SessionUser | null): Promise<RunInfo> {
-      const run = await (await requireSession(sessionId)).stopRun()
-      await auditAction(user, 'run.stop', run.id, { sessionId })
-      return run
-    },
+    pauseRun: (sessionId: string, user: SessionUser | null) => controlRun(sessionId, user, 'pause'),
+    resumeRun: (sessionId: string, user: SessionUser | null) => controlRun(sessionId, user, 'resume'),
+    stopRun: (sessionId: string, user: SessionUser | null) => controlRun(sessionId, user, 'stop'),
     async endSession(sessionId: string, user: SessionUser | null): Promise<void> {
       await (await requireSession(sessionId)).endSession()
       await auditAction(user, 'session.end', sessionId)
