@@ -13,6 +13,7 @@
 //   ids or codes in the answer;
 // - for object URLs, an allowed role with a random uuid or a malformed id: 'not-found';
 // - a participant allowed on a session URL, with another participant's session: 'not-found'.
+import { DEFAULT_PROTOCOL } from '~/components/protocol-form'
 import type { Role } from '~/server/services'
 
 export type Outcome = 'ok' | 'sign-in' | 'unauthorized' | 'forbidden' | 'not-found'
@@ -116,22 +117,7 @@ export const ACCESS_TABLE: Record<string, RouteAccess> = {
     loader: { allow: LAB_EDITORS },
     action: {
       allow: SUPERVISOR,
-      form: {
-        intent: 'save',
-        name: 'Access test protocol',
-        classes: ['left', 'right'],
-        fixationSeconds: '2',
-        cueSeconds: '1.25',
-        imagerySeconds: '4',
-        restSeconds: '2',
-        restJitterSeconds: '1',
-        trialsPerClass: '20',
-        bandLowHz: '8',
-        bandHighHz: '30',
-        windowStartSeconds: '0.5',
-        windowEndSeconds: '2.5',
-        decodingWindowSeconds: '1',
-      },
+      form: { ...DEFAULT_PROTOCOL, intent: 'save', name: 'Access test protocol' },
     },
   },
   'protocols._index.tsx': { loader: { allow: LAB_EDITORS } },
